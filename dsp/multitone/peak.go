@@ -7,6 +7,8 @@ import (
 	"math/cmplx"
 
 	"gonum.org/v1/gonum/dsp/fourier"
+	"gonum.org/v1/gonum/floats"
+	"gonum.org/v1/gonum/optimize"
 )
 
 // Reduction selects an iterative improvement of the crest factor that
@@ -71,8 +73,16 @@ const clipFraction = 0.5
 // lpStages are the exponents of ReduceLp, each a power of two.
 var lpStages = [...]int{8, 32, 128}
 
-// lbfgsMemory is the number of correction pairs L-BFGS keeps.
-const lbfgsMemory = 8
+// Settings of the L-BFGS stages of ReduceLp.
+const (
+	// lbfgsMemory is the number of correction pairs L-BFGS keeps.
+	lbfgsMemory = 8
+	// lbfgsMaxTrials bounds the step halvings of one line search.
+	lbfgsMaxTrials = 30
+	// lbfgsRelTol ends a stage when an iteration lowers ln‖x‖_p by no
+	// more than this fraction.
+	lbfgsRelTol = 1e-12
+)
 
 // fineGrid returns a number of samples per period with at least perCycle
 // points per cycle of bin maxBin: a power of two, at least period, but no
@@ -180,80 +190,62 @@ func (o *phaseOptimizer) lpNorm(phase, grad []float64, p int) float64 {
 	return math.Log(pk) + math.Log(s)/float64(p)
 }
 
-// lp runs ReduceLp: L-BFGS (two-loop recursion) with Armijo backtracking
-// on ln‖x‖_p for each p of lpStages.
+// lpProblem adapts lpNorm to optimize.Problem for one exponent p.
+// optimize evaluates Func and then Grad at the same point; lpNorm yields
+// both at once, so Func keeps the gradient and Grad hands it out when x
+// is the point Func saw last.
+type lpProblem struct {
+	o     *phaseOptimizer
+	p     int
+	x, g  []float64 // the point of the last Func call and its gradient
+	valid bool
+}
+
+func (l *lpProblem) fn(x []float64) float64 {
+	f := l.o.lpNorm(x, l.g, l.p)
+	copy(l.x, x)
+	l.valid = true
+	return f
+}
+
+func (l *lpProblem) grad(grad, x []float64) {
+	if l.valid && floats.Equal(x, l.x) {
+		copy(grad, l.g)
+		return
+	}
+	l.o.lpNorm(x, grad, l.p)
+}
+
+// lp runs ReduceLp: gonum's L-BFGS with an Armijo backtracking line
+// search on ln‖x‖_p for each p of lpStages, at most iters iterations per
+// stage. Each stage starts where the previous one ended.
 func (o *phaseOptimizer) lp(phase []float64, iters int) {
 	n := len(phase)
-	alloc := func() []float64 { return make([]float64, n) }
-	g, d, xn, gn := alloc(), alloc(), alloc(), alloc()
-	var sv, yv [lbfgsMemory][]float64
-	var rho, alpha [lbfgsMemory]float64
-	for i := range sv {
-		sv[i], yv[i] = alloc(), alloc()
-	}
+	prob := &lpProblem{o: o, x: make([]float64, n), g: make([]float64, n)}
 	for _, p := range lpStages {
-		f := o.lpNorm(phase, g, p)
-		used, head := 0, 0 // correction pairs stored; next slot
-		for range iters {
-			// d = −H·g by the two-loop recursion over the stored pairs,
-			// newest first.
-			copy(d, g)
-			for j := 0; j < used; j++ {
-				i := (head - 1 - j + lbfgsMemory) % lbfgsMemory
-				alpha[i] = rho[i] * dot(sv[i], d)
-				axpy(d, -alpha[i], yv[i])
-			}
-			if used > 0 {
-				i := (head - 1 + lbfgsMemory) % lbfgsMemory
-				scal(d, dot(sv[i], yv[i])/dot(yv[i], yv[i]))
-			} else if gg := math.Sqrt(dot(g, g)); gg > 0 {
-				scal(d, 0.1/gg) // first step: 0.1 rad along the gradient
-			}
-			for j := used - 1; j >= 0; j-- {
-				i := (head - 1 - j + lbfgsMemory) % lbfgsMemory
-				beta := rho[i] * dot(yv[i], d)
-				axpy(d, alpha[i]-beta, sv[i])
-			}
-			scal(d, -1)
-			slope := dot(g, d)
-			if !(slope < 0) {
-				break // no descent direction left: converged
-			}
-			step, fn := 1.0, 0.0
-			accepted := false
-			for range 30 {
-				for j := range phase {
-					xn[j] = phase[j] + step*d[j]
-				}
-				fn = o.lpNorm(xn, gn, p)
-				if fn <= f+1e-4*step*slope {
-					accepted = true
-					break
-				}
-				step /= 2
-			}
-			if !accepted {
-				break
-			}
-			s, y := sv[head], yv[head]
-			sy := 0.0
-			for j := range phase {
-				s[j] = xn[j] - phase[j]
-				y[j] = gn[j] - g[j]
-				sy += s[j] * y[j]
-			}
-			if sy > 0 {
-				rho[head] = 1 / sy
-				head = (head + 1) % lbfgsMemory
-				used = min(used+1, lbfgsMemory)
-			}
-			copy(phase, xn)
-			copy(g, gn)
-			done := f-fn <= 1e-12*math.Abs(f)
-			f = fn
-			if done {
-				break
-			}
+		prob.p, prob.valid = p, false
+		method := &optimize.LBFGS{
+			Store: lbfgsMemory,
+			// Armijo sufficient decrease 1e-4, halving the step (the
+			// defaults), giving up after lbfgsMaxTrials halvings.
+			Linesearcher: &optimize.Backtracking{MinimumStepSize: math.Ldexp(1, 1-lbfgsMaxTrials)},
+		}
+		settings := &optimize.Settings{
+			// optimize counts the starting point as a major iteration.
+			MajorIterations: iters + 1,
+			FuncEvaluations: 1 + iters*lbfgsMaxTrials,
+			// Stop once an iteration lowers ln‖x‖_p by no more than
+			// lbfgsRelTol relative.
+			Converger: &optimize.FunctionConverge{Relative: lbfgsRelTol, Iterations: 1},
+		}
+		// An error from Minimize means no further progress (no descent
+		// direction left, step below the minimum, a non-finite value): it
+		// ends the stage like a limit does. The next stage starts from the
+		// last point L-BFGS accepted, if any; o.best keeps the smallest
+		// peak seen in either case.
+		res, _ := optimize.Minimize(optimize.Problem{Func: prob.fn, Grad: prob.grad}, phase, settings, method)
+		if res != nil && res.Stats.MajorIterations > 0 {
+			copy(phase, res.X)
 		}
 	}
 }
@@ -269,24 +261,4 @@ func reducePeak(method Reduction, bins []int, amp, phase []float64, q, iters int
 		o.lp(phase, iters)
 	}
 	copy(phase, o.best)
-}
-
-func dot(a, b []float64) float64 {
-	s := 0.0
-	for i := range a {
-		s += a[i] * b[i]
-	}
-	return s
-}
-
-func axpy(dst []float64, a float64, x []float64) {
-	for i := range dst {
-		dst[i] += a * x[i]
-	}
-}
-
-func scal(x []float64, a float64) {
-	for i := range x {
-		x[i] *= a
-	}
 }
