@@ -36,8 +36,10 @@ type Point struct {
 	// Coherence is the ordinary coherence γ² between reference and
 	// response, from 0 to 1.
 	Coherence float64
-	// SNR is the signal-to-noise ratio behind the point, in dB (the worse
-	// of the two inputs).
+	// SNR is the signal-to-noise ratio behind the point, in dB: for a
+	// tone estimate the worse of the two inputs; for a broadband (H1)
+	// estimate the ratio of coherent to incoherent power at the response,
+	// γ²/(1−γ²), +Inf when the coherence is exactly 1.
 	SNR float64
 	// THD is the total harmonic distortion of the response input, in
 	// percent of the fundamental.
