@@ -1,0 +1,591 @@
+// Command tonetrace measures the frequency response of analog networks with
+// a stereo audio interface: one output drives the network into the response
+// input, the other loops straight back into the reference input, and the
+// ratio of the two inputs is the network's gain and phase.
+//
+// Output rules: data goes to files (or stdout where a command says so);
+// every message on stderr is one line starting "tonetrace: ", lowercase,
+// saying what happened and, for errors, how to fix it. Exit status 0 on
+// success, 1 for an unexpected failure, 2 for bad usage or bad input (no
+// output file is left behind), 3 for a measurement that ran but is invalid.
+package main
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"io"
+	iofs "io/fs"
+	"math"
+	"os"
+	"os/signal"
+	"path/filepath"
+	"runtime/debug"
+	"slices"
+	"sort"
+	"strconv"
+	"strings"
+	"time"
+
+	"github.com/spf13/cobra"
+	"github.com/spf13/pflag"
+
+	"tonetrace/audio/wavfile"
+	"tonetrace/config"
+	"tonetrace/dsp/extract"
+	"tonetrace/dsp/multitone"
+	"tonetrace/dsp/spectral"
+	"tonetrace/dsp/stimulus"
+	"tonetrace/dsp/trace"
+)
+
+// version is set at release time with -ldflags "-X main.version=…";
+// otherwise it comes from the module's build information.
+var version = ""
+
+// Exit statuses.
+const (
+	exitOK       = 0
+	exitFailure  = 1
+	exitUsage    = 2
+	exitInvalid  = 3
+	programName  = "tonetrace"
+	stimulusPeak = "peak"
+)
+
+func main() {
+	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt)
+	code := run(ctx, os.Args[1:], os.Stdout, os.Stderr)
+	stop()
+	os.Exit(code)
+}
+
+// usageError marks an error caused by the user's input: exit status 2.
+type usageError struct{ err error }
+
+func (e usageError) Error() string { return e.err.Error() }
+func (e usageError) Unwrap() error { return e.err }
+
+// usagef returns a usage error with a formatted message.
+func usagef(format string, args ...any) error {
+	return usageError{fmt.Errorf(format, args...)}
+}
+
+// run executes one command line and returns the exit status. It is main
+// without the process: tests call it directly.
+func run(ctx context.Context, args []string, stdout, stderr io.Writer) int {
+	app := &app{stdout: stdout, stderr: stderr, args: args}
+	root := app.rootCommand()
+	root.SetArgs(args)
+	root.SetOut(stdout)
+	root.SetErr(stderr)
+	err := root.ExecuteContext(ctx)
+	if err == nil {
+		return exitOK
+	}
+	msg := strings.ReplaceAll(err.Error(), "\n", "; ")
+	fmt.Fprintf(stderr, "%s: %s\n", programName, msg)
+	var ue usageError
+	switch {
+	case errors.As(err, &ue), isFlagError(err):
+		return exitUsage
+	case errors.Is(err, errInvalidMeasurement):
+		return exitInvalid
+	}
+	return exitFailure
+}
+
+// errInvalidMeasurement marks a measurement that ran but must not be trusted.
+var errInvalidMeasurement = errors.New("invalid measurement")
+
+// isFlagError reports errors cobra returns for bad flags and arguments.
+func isFlagError(err error) bool {
+	s := err.Error()
+	for _, p := range []string{"unknown flag", "unknown shorthand", "flag needs an argument", "invalid argument", "unknown command", "accepts ", "requires at least", "required flag"} {
+		if strings.Contains(s, p) {
+			return true
+		}
+	}
+	return false
+}
+
+// app holds what every command shares: the output streams and the command
+// line (for the metadata of written files).
+type app struct {
+	stdout, stderr io.Writer
+	args           []string
+	configPath     string
+}
+
+func (a *app) rootCommand() *cobra.Command {
+	root := &cobra.Command{
+		Use:   programName,
+		Short: "two-channel gain/phase analyzer for analog networks, on a stereo audio interface",
+		Long: `tonetrace measures the frequency response (gain and phase) of analog
+networks with a stereo audio interface. One output drives the network into
+input 1 (the response); the other loops straight back into input 2 (the
+reference). The ratio of the two inputs is the network's response.`,
+		SilenceErrors: true,
+		SilenceUsage:  true,
+		Version:       programVersion(),
+	}
+	root.SetFlagErrorFunc(func(c *cobra.Command, err error) error {
+		return usageError{fmt.Errorf("%s: %w; see '%s --help'", c.Name(), err, c.CommandPath())}
+	})
+	root.PersistentFlags().StringVar(&a.configPath, "config", "", "settings file (default: the user's config directory, tonetrace/config.toml)")
+	root.AddCommand(a.analyzeCommand(), a.stimulusCommand(), a.configCommand(), a.versionCommand())
+	return root
+}
+
+// programVersion returns the release version, or the module version from
+// the build information, or "devel".
+func programVersion() string {
+	if version != "" {
+		return version
+	}
+	if bi, ok := debug.ReadBuildInfo(); ok && bi.Main.Version != "" && bi.Main.Version != "(devel)" {
+		return bi.Main.Version
+	}
+	return "devel"
+}
+
+func (a *app) versionCommand() *cobra.Command {
+	return &cobra.Command{
+		Use:   "version",
+		Short: "print the version",
+		Args:  cobra.NoArgs,
+		RunE: func(cmd *cobra.Command, _ []string) error {
+			fmt.Fprintf(a.stdout, "%s %s\n", programName, programVersion())
+			return nil
+		},
+	}
+}
+
+// settings loads the settings file and applies the command's changed
+// flags, bound to setting keys. Validation is left to the caller, which may
+// first fill in values it learns (such as a recording's sample rate).
+func (a *app) settings(fs *pflag.FlagSet, bind map[string]string) (*config.Settings, error) {
+	s, err := config.Load(a.configPath)
+	if err != nil {
+		return nil, usageError{err}
+	}
+	return a.applyFlags(s, fs, bind)
+}
+
+func (a *app) applyFlags(s *config.Settings, fs *pflag.FlagSet, bind map[string]string) (*config.Settings, error) {
+	if err := s.ApplyFlags(fs, bind); err != nil {
+		return nil, usageError{err}
+	}
+	return s, nil
+}
+
+// validate checks the settings, reporting every problem at once.
+func validate(s *config.Settings) error {
+	if err := s.Validate(); err != nil {
+		return usageError{err}
+	}
+	return nil
+}
+
+// commandLine returns the command as typed, for file metadata.
+func (a *app) commandLine() string {
+	parts := make([]string, 0, len(a.args)+1)
+	parts = append(parts, programName)
+	for _, s := range a.args {
+		if s == "" || strings.ContainsAny(s, " \t'\"\\$") {
+			s = strconv.Quote(s)
+		}
+		parts = append(parts, s)
+	}
+	return strings.Join(parts, " ")
+}
+
+// stampMeta puts the common metadata at the head of a trace.
+func (a *app) stampMeta(t *trace.Trace) {
+	head := []trace.MetaItem{
+		{Key: "tool", Value: programName + " " + programVersion()},
+		{Key: "command", Value: a.commandLine()},
+		{Key: "date", Value: time.Now().UTC().Format(time.RFC3339)},
+	}
+	t.Meta = append(head, t.Meta...)
+}
+
+// checkWritable fails early, before any work, when the output file cannot
+// be created in its directory.
+func checkWritable(path string) error {
+	if path == "" {
+		return usagef("no output file: give one with -o FILE")
+	}
+	dir := filepath.Dir(path)
+	st, err := os.Stat(dir)
+	if err != nil {
+		return usagef("cannot write %s: directory %s does not exist; create it or choose another -o", path, dir)
+	}
+	if !st.IsDir() {
+		return usagef("cannot write %s: %s is not a directory; choose another -o", path, dir)
+	}
+	if fi, err := os.Stat(path); err == nil && fi.IsDir() {
+		return usagef("cannot write %s: it is a directory; give a file name with -o", path)
+	}
+	f, err := os.CreateTemp(dir, ".tonetrace-probe-*")
+	if err != nil {
+		return usagef("cannot write in %s (%v); choose a writable place with -o", dir, errors.Unwrap(err))
+	}
+	name := f.Name()
+	f.Close()
+	os.Remove(name)
+	return nil
+}
+
+// ---- analyze ----------------------------------------------------------------
+
+func (a *app) analyzeCommand() *cobra.Command {
+	var out string
+	cmd := &cobra.Command{
+		Use:   "analyze REC.wav -o OUT.csv",
+		Short: "transfer function from a two-channel recording of any broadband signal",
+		Long: `analyze reads a recording with the reference (looped-back stimulus) on one
+channel and the network's response on another, and writes the transfer
+function response/reference: gain, phase, their standard uncertainties and
+the coherence, by Welch-averaged cross spectra (H1 estimator, Hann window,
+50% overlap). Any broadband stimulus works: white or pink noise, a sweep,
+or programme material with enough level across the band.`,
+		Example: `  tonetrace analyze bench.wav -o bench.csv
+  tonetrace analyze field.wav -o field.csv --ref 1 --dut 2 --ppd 24 --from 40 --to 16k`,
+		Args: exactArgs(1, "give one recording: tonetrace analyze REC.wav -o OUT.csv"),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			return a.analyze(cmd.Context(), cmd.Flags(), args[0], out)
+		},
+	}
+	f := cmd.Flags()
+	f.StringVarP(&out, "output", "o", "", "trace file to write (CSV)")
+	f.Int("ref", 2, "1-based channel holding the reference (the looped-back stimulus)")
+	f.Int("dut", 1, "1-based channel holding the network's response")
+	f.String("seg", "8192", "analysis segment length in samples")
+	f.String("from", "20", "lowest frequency to write, Hz (SI suffixes allowed: 20, 1k)")
+	f.String("to", "20k", "highest frequency to write, Hz; at most half the sample rate")
+	f.Int("ppd", 0, "average into N log-spaced points per decade (0: every bin)")
+	return cmd
+}
+
+var analyzeFlags = map[string]string{
+	"ref":  "audio.ref_input",
+	"dut":  "audio.dut_input",
+	"seg":  "analyze.segment",
+	"from": "sweep.from_hz",
+	"to":   "sweep.to_hz",
+	"ppd":  "analyze.points_per_decade",
+}
+
+func (a *app) analyze(ctx context.Context, fs *pflag.FlagSet, in, out string) error {
+	if err := checkWritable(out); err != nil {
+		return err
+	}
+	s, err := a.settings(fs, analyzeFlags)
+	if err != nil {
+		return err
+	}
+	rec, err := wavfile.ReadFile(in)
+	if errors.Is(err, iofs.ErrNotExist) {
+		return usagef("cannot read %s: no such file; check the path", in)
+	}
+	if err != nil {
+		return usageError{err}
+	}
+	nch := len(rec.Channels)
+	if nch < 2 {
+		return usagef("%s has %d channel; analyze needs two: the reference and the response, recorded together", in, nch)
+	}
+	// The recording's rate decides the Nyquist limit of the range.
+	if err := s.Set("audio.rate", strconv.Itoa(rec.Rate), in); err != nil {
+		return usageError{err}
+	}
+	if err := validate(s); err != nil {
+		return err
+	}
+	ref, dut := s.Audio.RefInput, s.Audio.DUTInput
+	for _, c := range []struct {
+		name string
+		ch   int
+		flag string
+	}{{"reference", ref, "--ref"}, {"response", dut, "--dut"}} {
+		if c.ch > nch {
+			return usagef("%s channel %d (from %s) is out of range: %s has %d channels; use %s 1 to %d", c.name, c.ch, s.Origin(keyOfFlag(c.flag)), in, nch, c.flag, nch)
+		}
+	}
+	seg := s.Analyze.Segment
+	if rec.Frames() < seg {
+		return usagef("%s holds %d frames, fewer than one analysis segment of %d; record longer or use a shorter --seg", in, rec.Frames(), seg)
+	}
+	w, err := spectral.NewWelch(seg, float64(rec.Rate))
+	if err != nil {
+		return usageError{err}
+	}
+	// Feed in blocks so a long file can be cancelled with ctrl+c.
+	x, y := rec.Channels[ref-1], rec.Channels[dut-1]
+	const block = 1 << 16
+	for i := 0; i < len(x); i += block {
+		if err := ctx.Err(); err != nil {
+			return fmt.Errorf("analyze interrupted; nothing written")
+		}
+		j := min(i+block, len(x))
+		w.Add(x[i:j], y[i:j])
+	}
+	t, err := w.Trace(s.Sweep.FromHz, s.Sweep.ToHz, s.Analyze.PointsPerDecade)
+	if err != nil {
+		return usageError{err}
+	}
+	t.Meta = append([]trace.MetaItem{
+		{Key: "input", Value: filepath.Base(in)},
+		{Key: "input_format", Value: rec.Format.String()},
+		{Key: "reference_channel", Value: strconv.Itoa(ref)},
+		{Key: "response_channel", Value: strconv.Itoa(dut)},
+	}, t.Meta...)
+	a.stampMeta(&t)
+	if err := trace.SaveFile(out, &t, trace.ColCoherence); err != nil {
+		return err
+	}
+	a.summarize("analyze", out, &t, float64(rec.Frames())/float64(rec.Rate), w.Segments())
+	return nil
+}
+
+// keyOfFlag maps an analyze flag to its setting key, for messages.
+func keyOfFlag(flag string) string { return analyzeFlags[strings.TrimPrefix(flag, "--")] }
+
+// summarize prints a short account of a written trace on stderr: its span,
+// its quality and the parameters read off it.
+func (a *app) summarize(cmd, out string, t *trace.Trace, seconds float64, segments int) {
+	pts := t.Points
+	first, last := pts[0].Freq, pts[len(pts)-1].Freq
+	fmt.Fprintf(a.stderr, "%s: %s: wrote %s: %d points, %s to %s, from %.1f s of audio (%d segments)\n",
+		programName, cmd, out, len(pts), formatHz(first), formatHz(last), seconds, segments)
+	coh := make([]float64, 0, len(pts))
+	for _, p := range pts {
+		if !math.IsNaN(p.Coherence) {
+			coh = append(coh, p.Coherence)
+		}
+	}
+	if len(coh) > 0 {
+		sort.Float64s(coh)
+		low := 0
+		for _, c := range coh {
+			if c < 0.9 {
+				low++
+			}
+		}
+		fmt.Fprintf(a.stderr, "%s: %s: coherence median %.4f, lowest %.4f; %d of %d points below 0.9\n",
+			programName, cmd, coh[len(coh)/2], coh[0], low, len(coh))
+		if low > len(coh)/4 {
+			fmt.Fprintf(a.stderr, "%s: %s: hint: low coherence means noise, hum or a nonlinear or time-varying network; raise the stimulus level or record longer\n", programName, cmd)
+		}
+	}
+	params, err := extract.Analyze(pts)
+	if err != nil {
+		return
+	}
+	for _, line := range params.Lines() {
+		fmt.Fprintf(a.stderr, "%s: %s: %s\n", programName, cmd, line)
+	}
+}
+
+// formatHz writes a frequency with four significant digits: "23.44 Hz",
+// "2.801 kHz".
+func formatHz(f float64) string {
+	if f >= 1000 {
+		return strconv.FormatFloat(f/1000, 'g', 4, 64) + " kHz"
+	}
+	return strconv.FormatFloat(f, 'g', 4, 64) + " Hz"
+}
+
+// exactArgs is cobra.ExactArgs with a message that says what to type.
+func exactArgs(n int, hint string) cobra.PositionalArgs {
+	return func(cmd *cobra.Command, args []string) error {
+		if len(args) != n {
+			return usagef("%s: expected %d argument(s), got %d; %s", cmd.Name(), n, len(args), hint)
+		}
+		return nil
+	}
+}
+
+// ---- stimulus ---------------------------------------------------------------
+
+func (a *app) stimulusCommand() *cobra.Command {
+	var (
+		out, kind, enc string
+		seconds        float64
+		seed           uint64
+	)
+	cmd := &cobra.Command{
+		Use:   "stimulus -o OUT.wav --kind KIND",
+		Short: "write a test signal as a stereo WAV file (the same signal on both channels)",
+		Long: `stimulus writes a test signal with the same samples on both channels, so a
+measurement can be recorded with any player and recorder and then read with
+'tonetrace analyze'. Kinds: ` + strings.Join(kindNames(), ", ") + `.
+
+The level is the peak sample level in dBFS. It can never exceed the
+configured cap (output.cap_dbfs, default -6 dBFS).
+
+Caution: test signals are loud and steady. Turn monitors down, take
+headphones off, and never feed speaker-level or mains-referenced signals
+back into the interface without an attenuator or isolation.`,
+		Example: `  tonetrace stimulus -o pink.wav --kind pink --seconds 20
+  tonetrace stimulus -o tones.wav --kind multitone --level -24 --from 20 --to 20k`,
+		Args: exactArgs(0, "give the output with -o and the kind with --kind"),
+		RunE: func(cmd *cobra.Command, _ []string) error {
+			return a.stimulus(cmd.Flags(), out, kind, enc, seconds, seed)
+		},
+	}
+	f := cmd.Flags()
+	f.StringVarP(&out, "output", "o", "", "WAV file to write")
+	f.StringVar(&kind, "kind", "", "signal: "+strings.Join(kindNames(), ", "))
+	f.Float64Var(&seconds, "seconds", 10, "duration in seconds (multitone: whole periods)")
+	f.String("rate", "48k", "sample rate in Hz")
+	f.String("level", "-20", "peak level in dBFS, at most the cap")
+	f.String("from", "20", "lowest frequency, Hz")
+	f.String("to", "20k", "highest frequency, Hz")
+	f.StringVar(&enc, "encoding", "float32", "sample encoding: float32, pcm24, pcm16")
+	f.Uint64Var(&seed, "seed", 1, "seed of the noise generators (same seed, same file)")
+	return cmd
+}
+
+var stimulusFlags = map[string]string{
+	"rate":  "audio.rate",
+	"level": "output.level_dbfs",
+	"from":  "sweep.from_hz",
+	"to":    "sweep.to_hz",
+}
+
+func kindNames() []string { return stimulus.Kinds() }
+
+func (a *app) stimulus(fs *pflag.FlagSet, out, kind, encName string, seconds float64, seed uint64) error {
+	if kind == "" {
+		return usagef("no --kind given; choose one of %s", strings.Join(kindNames(), ", "))
+	}
+	if !slices.Contains(kindNames(), kind) {
+		return usagef("unknown --kind %q; choose one of %s", kind, strings.Join(kindNames(), ", "))
+	}
+	enc, err := wavfile.ParseEncoding(encName)
+	if err != nil {
+		return usageError{err}
+	}
+	if !slices.Contains([]wavfile.Encoding{wavfile.Float32, wavfile.PCM24, wavfile.PCM16}, enc) {
+		return usagef("--encoding %s is not offered for stimuli; use float32, pcm24 or pcm16", encName)
+	}
+	if !(seconds > 0 && seconds <= 3600) {
+		return usagef("--seconds %g is out of range; give a duration from just above 0 to 3600", seconds)
+	}
+	if err := checkWritable(out); err != nil {
+		return err
+	}
+	s, err := a.settings(fs, stimulusFlags)
+	if err != nil {
+		return err
+	}
+	if err := validate(s); err != nil {
+		return err
+	}
+	rate := float64(s.Audio.Rate)
+	var x []float64
+	var note string
+	if kind == stimulus.KindMultitone {
+		x, note, err = renderMultitone(s, seconds, seed)
+	} else {
+		x, err = stimulus.Render(kind, stimulus.Options{
+			Rate: rate, Seconds: seconds, LevelDBFS: s.Output.LevelDBFS, CapDBFS: s.Output.CapDBFS,
+			From: s.Sweep.FromHz, To: s.Sweep.ToHz, Seed: seed, FadeSeconds: s.Output.FadeMS / 1000,
+		})
+	}
+	if err != nil {
+		return usageError{err}
+	}
+	rec := &wavfile.Audio{Rate: s.Audio.Rate, Channels: [][]float64{x, x}}
+	if err := wavfile.WriteFile(out, rec, enc); err != nil {
+		return err
+	}
+	fmt.Fprintf(a.stderr, "%s: stimulus: wrote %s: %s, %.2f s at %d Hz, %s, peak %.2f dBFS, crest factor %.2f dB%s\n",
+		programName, out, kind, float64(len(x))/rate, s.Audio.Rate, enc, peakDBFS(x), stimulus.CrestFactorDB(x), note)
+	return nil
+}
+
+// renderMultitone loops whole periods of a periodic multitone to fill the
+// requested duration (rounded up to whole periods).
+func renderMultitone(s *config.Settings, seconds float64, seed uint64) ([]float64, string, error) {
+	rate := float64(s.Audio.Rate)
+	period := 1 << 14
+	if rate > 96000 {
+		period = 1 << 16
+	} else if rate > 48000 {
+		period = 1 << 15
+	}
+	m, err := multitone.Design(multitone.Options{
+		Rate: rate, Period: period, From: s.Sweep.FromHz, To: s.Sweep.ToHz, PerDecade: 24,
+		LevelDBFS: s.Output.LevelDBFS, CapDBFS: s.Output.CapDBFS, Seed: seed,
+	})
+	if err != nil {
+		return nil, "", err
+	}
+	one := m.Period()
+	n := int(math.Ceil(seconds * rate / float64(period)))
+	x := make([]float64, 0, n*period)
+	for range n {
+		x = append(x, one...)
+	}
+	return x, fmt.Sprintf(", %d tones, period %d samples", len(m.Tones()), period), nil
+}
+
+func peakDBFS(x []float64) float64 {
+	p := 0.0
+	for _, v := range x {
+		p = max(p, math.Abs(v))
+	}
+	return 20 * math.Log10(p)
+}
+
+// ---- config -----------------------------------------------------------------
+
+func (a *app) configCommand() *cobra.Command {
+	cmd := &cobra.Command{
+		Use:   "config",
+		Short: "show the settings or write a default settings file",
+	}
+	show := &cobra.Command{
+		Use:   "show",
+		Short: "print every setting with its value and where the value came from",
+		Args:  exactArgs(0, "tonetrace config show takes no arguments"),
+		RunE: func(cmd *cobra.Command, _ []string) error {
+			s, err := a.settings(cmd.Flags(), nil)
+			if err != nil {
+				return err
+			}
+			s.Describe(a.stdout)
+			return validate(s)
+		},
+	}
+	var force bool
+	initCmd := &cobra.Command{
+		Use:   "init",
+		Short: "write a commented settings file with the defaults",
+		Args:  exactArgs(0, "tonetrace config init takes no arguments; choose the file with --config"),
+		RunE: func(cmd *cobra.Command, _ []string) error {
+			path := a.configPath
+			if path == "" {
+				p, err := config.DefaultPath()
+				if err != nil {
+					return usagef("no user config directory (%v); give a file with --config", err)
+				}
+				path = p
+			}
+			if _, err := os.Stat(path); err == nil && !force {
+				return usagef("%s already exists; use --force to replace it with the defaults", path)
+			}
+			if err := config.WriteDefault(path); err != nil {
+				return err
+			}
+			fmt.Fprintf(a.stderr, "%s: config: wrote %s\n", programName, path)
+			return nil
+		},
+	}
+	initCmd.Flags().BoolVar(&force, "force", false, "replace an existing file")
+	cmd.AddCommand(show, initCmd)
+	return cmd
+}

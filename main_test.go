@@ -1,0 +1,459 @@
+package main
+
+import (
+	"bytes"
+	"context"
+	"flag"
+	"math"
+	"math/cmplx"
+	"math/rand/v2"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"strings"
+	"testing"
+
+	"tonetrace/audio/wavfile"
+	"tonetrace/dsp/extract"
+	"tonetrace/dsp/stimulus"
+	"tonetrace/dsp/trace"
+)
+
+var update = flag.Bool("update", false, "rewrite testdata/example-presence.wav")
+
+// runCLI runs one command line in process and returns its exit status and
+// what it printed.
+func runCLI(t *testing.T, args ...string) (code int, stdout, stderr string) {
+	t.Helper()
+	var o, e bytes.Buffer
+	// An empty config directory keeps the user's own settings out of tests.
+	t.Setenv("XDG_CONFIG_HOME", t.TempDir())
+	code = run(context.Background(), args, &o, &e)
+	return code, o.String(), e.String()
+}
+
+// biquad is a direct-form-I filter with the coefficients of the W3C Audio
+// EQ Cookbook (REFERENCES.md §7), normalised by a0.
+type biquad struct{ b0, b1, b2, a1, a2 float64 }
+
+// cookbook returns the RBJ cookbook biquad of the given type at fs.
+// Source: W3C Working Group Note "Audio EQ Cookbook" (2021), REFERENCES §7 [S].
+func cookbook(kind string, f0, q, gainDB, fs float64) biquad {
+	w0 := 2 * math.Pi * f0 / fs
+	c, s := math.Cos(w0), math.Sin(w0)
+	alpha := s / (2 * q)
+	A := math.Pow(10, gainDB/40)
+	var b0, b1, b2, a0, a1, a2 float64
+	switch kind {
+	case "lowpass":
+		b0, b1, b2 = (1-c)/2, 1-c, (1-c)/2
+		a0, a1, a2 = 1+alpha, -2*c, 1-alpha
+	case "highpass":
+		b0, b1, b2 = (1+c)/2, -(1 + c), (1+c)/2
+		a0, a1, a2 = 1+alpha, -2*c, 1-alpha
+	case "bandpass":
+		b0, b1, b2 = alpha, 0, -alpha
+		a0, a1, a2 = 1+alpha, -2*c, 1-alpha
+	case "notch":
+		b0, b1, b2 = 1, -2*c, 1
+		a0, a1, a2 = 1+alpha, -2*c, 1-alpha
+	case "peaking":
+		b0, b1, b2 = 1+alpha*A, -2*c, 1-alpha*A
+		a0, a1, a2 = 1+alpha/A, -2*c, 1-alpha/A
+	default:
+		panic("unknown cookbook filter " + kind)
+	}
+	return biquad{b0 / a0, b1 / a0, b2 / a0, a1 / a0, a2 / a0}
+}
+
+// response is the digital frequency response H(e^{jω}) at f.
+func (q biquad) response(f, fs float64) complex128 {
+	z1 := cmplx.Exp(complex(0, -2*math.Pi*f/fs))
+	z2 := z1 * z1
+	return (complex(q.b0, 0) + complex(q.b1, 0)*z1 + complex(q.b2, 0)*z2) /
+		(1 + complex(q.a1, 0)*z1 + complex(q.a2, 0)*z2)
+}
+
+func (q biquad) filter(x []float64) []float64 {
+	y := make([]float64, len(x))
+	var x1, x2, y1, y2 float64
+	for i, v := range x {
+		o := q.b0*v + q.b1*x1 + q.b2*x2 - q.a1*y1 - q.a2*y2
+		x2, x1, y2, y1 = x1, v, y1, o
+		y[i] = o
+	}
+	return y
+}
+
+// The example scenario (our own): a presence lift on an instrument
+// preamplifier's tone stack, +6 dB at 2.8 kHz with Q 1, recorded at 48 kHz
+// with pink noise; input noise on both channels and a little mains hum on
+// the response lead.
+const (
+	exampleFile   = "testdata/example-presence.wav"
+	exampleF0     = 2800.0
+	exampleQ      = 1.0
+	exampleGainDB = 6.0
+	exampleRate   = 48000
+)
+
+// TestExampleRecording checks (and with -update, regenerates) the bundled
+// example recording, and that analyze recovers the filter it was made with.
+func TestExampleRecording(t *testing.T) {
+	eq := cookbook("peaking", exampleF0, exampleQ, exampleGainDB, exampleRate)
+	if *update {
+		ref, err := stimulus.Render(stimulus.KindPink, stimulus.Options{
+			Rate: exampleRate, Seconds: 4, LevelDBFS: -12, CapDBFS: -6, Seed: 2026, FadeSeconds: 0.02,
+		})
+		if err != nil {
+			t.Fatal(err)
+		}
+		dut := eq.filter(ref)
+		rng := rand.New(rand.NewPCG(7, 11))
+		const (
+			floor = 3e-4 // about −70 dBFS rms input noise
+			hum   = 1e-3 // 50 Hz mains hum picked up by the response lead, −60 dBFS
+		)
+		for i := range ref {
+			ref[i] += floor * rng.NormFloat64()
+			dut[i] += floor*rng.NormFloat64() + hum*math.Sin(2*math.Pi*50*float64(i)/exampleRate)
+		}
+		rec := &wavfile.Audio{Rate: exampleRate, Channels: [][]float64{dut, ref}}
+		if err := wavfile.WriteFile(exampleFile, rec, wavfile.PCM24); err != nil {
+			t.Fatal(err)
+		}
+	}
+	out := filepath.Join(t.TempDir(), "example.csv")
+	code, _, stderr := runCLI(t, "analyze", exampleFile, "-o", out)
+	if code != exitOK {
+		t.Fatalf("analyze exit %d: %s", code, stderr)
+	}
+	tr, err := trace.LoadFile(out)
+	if err != nil {
+		t.Fatal(err)
+	}
+	compareWithBiquad(t, tr, eq, exampleRate, 0.1, 1.0)
+
+	// Parameters: the cookbook peaking filter has exactly the set gain at f0
+	// (W3C Audio EQ Cookbook [S]). The peak is read off a noisy every-bin
+	// trace, so allow a little.
+	p, err := extract.Analyze(tr.Points)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !p.Peak.Found() {
+		t.Fatalf("no peak found; params: %v", p.Lines())
+	}
+	if math.Abs(p.Peak.Freq/exampleF0-1) > 0.02 || math.Abs(p.Peak.GainDB-exampleGainDB) > 0.1 {
+		t.Errorf("peak %.1f Hz %.3f dB, want %.0f Hz %.1f dB", p.Peak.Freq, p.Peak.GainDB, exampleF0, exampleGainDB)
+	}
+	if !strings.Contains(stderr, "coherence median") {
+		t.Errorf("summary lacks the coherence line:\n%s", stderr)
+	}
+}
+
+// compareWithBiquad checks every point whose coherence exceeds 0.99 against
+// the biquad's digital response.
+func compareWithBiquad(t *testing.T, tr *trace.Trace, q biquad, fs, tolDB, tolDeg float64) {
+	t.Helper()
+	checked, eligible := 0, 0
+	var worstDB, worstDeg float64
+	for _, p := range tr.Points {
+		want := q.response(p.Freq, fs)
+		// Where the response is 30 dB down the filter's own noise decides;
+		// REFERENCES §7's end-to-end check uses the same |H| > 0.03.
+		if cmplx.Abs(want) < 0.03 {
+			continue
+		}
+		eligible++
+		if !(p.Coherence > 0.99) {
+			continue
+		}
+		dDB := p.GainDB() - 20*math.Log10(cmplx.Abs(want))
+		dDeg := trace.WrapDeg(p.PhaseDeg() - cmplx.Phase(want)*180/math.Pi)
+		worstDB = max(worstDB, math.Abs(dDB))
+		worstDeg = max(worstDeg, math.Abs(dDeg))
+		checked++
+	}
+	if checked < eligible*9/10 || checked == 0 {
+		t.Fatalf("only %d of %d points with |H| > 0.03 had coherence above 0.99", checked, eligible)
+	}
+	if worstDB > tolDB || worstDeg > tolDeg {
+		t.Errorf("worst deviation %.4f dB, %.3f° over %d points; allowed %.2f dB, %.1f°", worstDB, worstDeg, checked, tolDB, tolDeg)
+	}
+	t.Logf("%d points, worst %.4f dB, %.3f°", checked, worstDB, worstDeg)
+}
+
+// requireTool returns the path of an outside tool, skipping the test when
+// it is missing unless TONETRACE_REQUIRE_TOOLS=1 (set by .ci/run).
+func requireTool(t *testing.T, name string) string {
+	t.Helper()
+	p, err := exec.LookPath(name)
+	if err != nil {
+		if os.Getenv("TONETRACE_REQUIRE_TOOLS") == "1" {
+			t.Fatalf("%s is required (TONETRACE_REQUIRE_TOOLS=1) but not on PATH: apt-get install %s", name, name)
+		}
+		t.Skipf("%s not on PATH", name)
+	}
+	return p
+}
+
+func sox(t *testing.T, bin string, args ...string) {
+	t.Helper()
+	out, err := exec.Command(bin, args...).CombinedOutput()
+	if err != nil {
+		t.Fatalf("sox %s: %v\n%s", strings.Join(args, " "), err, out)
+	}
+}
+
+// TestAnalyzeSoxFilters is the end-to-end check with an outside filter: sox
+// (Debian package, 14.4.2) makes white noise, filters one copy with its
+// cookbook biquads, and analyze must recover each filter's digital response.
+// sox's lowpass/highpass/bandpass/bandreject/equalizer equal the RBJ
+// cookbook LPF/HPF/BPF (0 dB peak)/notch/peaking (REFERENCES §7 [S: sox
+// biquads.c; V: coefficients to 4e−16]).
+func TestAnalyzeSoxFilters(t *testing.T) {
+	bin := requireTool(t, "sox")
+	dir := t.TempDir()
+	noise := filepath.Join(dir, "noise.wav")
+	const fs = 48000
+	// Float output and -D: sox dithers below 24 bits (REFERENCES §7 pitfalls).
+	sox(t, bin, "-R", "-D", "-n", "-r", "48000", "-c", "1", "-e", "floating-point", "-b", "32", noise,
+		"synth", "10", "whitenoise", "gain", "-12")
+	cases := []struct {
+		name   string
+		effect []string
+		filter biquad
+	}{
+		{"lowpass 1000", []string{"lowpass", "1000"}, cookbook("lowpass", 1000, math.Sqrt2/2, 0, fs)},
+		{"highpass 500", []string{"highpass", "500"}, cookbook("highpass", 500, math.Sqrt2/2, 0, fs)},
+		// bandpass width in Hz: Q = f/BW.
+		{"bandpass 1000 200", []string{"bandpass", "1000", "200"}, cookbook("bandpass", 1000, 5, 0, fs)},
+		{"bandreject 2000 400", []string{"bandreject", "2000", "400"}, cookbook("notch", 2000, 5, 0, fs)},
+		// equalizer width given as Q with the q suffix.
+		{"equalizer 3000 1.5q -8", []string{"equalizer", "3000", "1.5q", "-8"}, cookbook("peaking", 3000, 1.5, -8, fs)},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			filtered := filepath.Join(dir, c.effect[0]+".wav")
+			rec := filepath.Join(dir, c.effect[0]+"-rec.wav")
+			sox(t, bin, append([]string{"-D", noise, "-e", "floating-point", "-b", "32", filtered}, c.effect...)...)
+			// Channel 1: the filtered copy (response); channel 2: the reference.
+			sox(t, bin, "-D", "-M", filtered, noise, "-e", "floating-point", "-b", "32", rec)
+			out := filepath.Join(dir, c.effect[0]+".csv")
+			code, _, stderr := runCLI(t, "analyze", rec, "-o", out, "--seg", "4096", "--from", "50", "--to", "15k")
+			if code != exitOK {
+				t.Fatalf("analyze exit %d: %s", code, stderr)
+			}
+			tr, err := trace.LoadFile(out)
+			if err != nil {
+				t.Fatal(err)
+			}
+			// Issue tolerance: 0.1 dB and 1° where coherence > 0.99.
+			compareWithBiquad(t, tr, c.filter, fs, 0.1, 1.0)
+		})
+	}
+}
+
+// TestAnalyzeBadInput checks that every kind of bad input gives one line
+// saying what is wrong and how to fix it, exit status 2, and no output file.
+func TestAnalyzeBadInput(t *testing.T) {
+	dir := t.TempDir()
+	write := func(name string, data []byte) string {
+		p := filepath.Join(dir, name)
+		if err := os.WriteFile(p, data, 0o644); err != nil {
+			t.Fatal(err)
+		}
+		return p
+	}
+	wav := func(name string, channels, frames int) string {
+		var b bytes.Buffer
+		ch := make([][]float64, channels)
+		rng := rand.New(rand.NewPCG(1, 2))
+		for i := range ch {
+			ch[i] = make([]float64, frames)
+			for j := range ch[i] {
+				ch[i][j] = 0.1 * rng.NormFloat64()
+			}
+		}
+		if err := wavfile.Write(&b, &wavfile.Audio{Rate: 48000, Channels: ch}, wavfile.Float32); err != nil {
+			t.Fatal(err)
+		}
+		return write(name, b.Bytes())
+	}
+	good := wav("good.wav", 2, 48000)
+	mono := wav("mono.wav", 1, 48000)
+	full, _ := os.ReadFile(good)
+	truncated := write("truncated.wav", full[:len(full)/2])
+	notWav := write("notwav.wav", []byte("ID3\x03\x00 this is an mp3 tag, not a wave file"))
+	empty := write("empty.wav", nil)
+	short := wav("short.wav", 2, 1000)
+	out := filepath.Join(dir, "out.csv")
+
+	cases := []struct {
+		name string
+		args []string
+		want string // fragment of the message
+	}{
+		{"not a WAV", []string{"analyze", notWav, "-o", out}, "not a WAV"},
+		{"empty file", []string{"analyze", empty, "-o", out}, "empty"},
+		{"truncated", []string{"analyze", truncated, "-o", out}, "truncated"},
+		{"one channel", []string{"analyze", mono, "-o", out}, "needs two"},
+		{"missing file", []string{"analyze", filepath.Join(dir, "nope.wav"), "-o", out}, "check the path"},
+		{"ref out of range", []string{"analyze", good, "-o", out, "--ref", "3"}, "use --ref 1 to 2"},
+		{"dut out of range", []string{"analyze", good, "-o", out, "--dut", "5"}, "use --dut 1 to 2"},
+		{"same channel", []string{"analyze", good, "-o", out, "--ref", "1", "--dut", "1"}, "dut_input"},
+		{"beyond Nyquist", []string{"analyze", good, "-o", out, "--to", "30k"}, "Nyquist"},
+		{"bad unit", []string{"analyze", good, "-o", out, "--from", "20 kV"}, "sweep.from_hz"},
+		{"from above to", []string{"analyze", good, "-o", out, "--from", "5k", "--to", "1k"}, "sweep"},
+		{"shorter than a segment", []string{"analyze", short, "-o", out}, "shorter --seg"},
+		{"unwritable output", []string{"analyze", good, "-o", filepath.Join(dir, "no-such-dir", "out.csv")}, "does not exist"},
+		{"no output", []string{"analyze", good}, "-o FILE"},
+		{"no recording", []string{"analyze", "-o", out}, "expected 1 argument"},
+		{"unknown flag", []string{"analyze", good, "-o", out, "--bogus"}, "unknown flag"},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			code, _, stderr := runCLI(t, c.args...)
+			if code != exitUsage {
+				t.Errorf("exit %d, want %d; stderr: %s", code, exitUsage, stderr)
+			}
+			if !strings.Contains(stderr, c.want) {
+				t.Errorf("stderr %q lacks %q", stderr, c.want)
+			}
+			if n := strings.Count(strings.TrimSpace(stderr), "\n"); n != 0 || !strings.HasPrefix(stderr, "tonetrace: ") {
+				t.Errorf("want one line starting 'tonetrace: ', got %q", stderr)
+			}
+			if _, err := os.Stat(out); err == nil {
+				t.Errorf("output file left behind")
+				os.Remove(out)
+			}
+		})
+	}
+}
+
+// TestStimulusKinds writes every kind and checks the file: stereo, both
+// channels equal, peak at the requested level and never above the cap.
+func TestStimulusKinds(t *testing.T) {
+	dir := t.TempDir()
+	for _, kind := range kindNames() {
+		t.Run(kind, func(t *testing.T) {
+			out := filepath.Join(dir, kind+".wav")
+			code, _, stderr := runCLI(t, "stimulus", "-o", out, "--kind", kind, "--seconds", "2", "--level", "-18", "--from", "50", "--to", "10k")
+			if code != exitOK {
+				t.Fatalf("exit %d: %s", code, stderr)
+			}
+			a, err := wavfile.ReadFile(out)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if len(a.Channels) != 2 || a.Rate != 48000 {
+				t.Fatalf("%d channels at %d Hz, want 2 at 48000", len(a.Channels), a.Rate)
+			}
+			if a.Frames() < 2*48000 {
+				t.Errorf("%d frames, want at least %d", a.Frames(), 2*48000)
+			}
+			peak := 0.0
+			for i := range a.Channels[0] {
+				if a.Channels[0][i] != a.Channels[1][i] {
+					t.Fatalf("channels differ at frame %d", i)
+				}
+				peak = max(peak, math.Abs(a.Channels[0][i]))
+			}
+			// float32 storage: allow its rounding.
+			if got := 20 * math.Log10(peak); math.Abs(got+18) > 1e-5 {
+				t.Errorf("peak %.6f dBFS, want -18", got)
+			}
+		})
+	}
+}
+
+func TestStimulusBadInput(t *testing.T) {
+	out := filepath.Join(t.TempDir(), "x.wav")
+	cases := []struct {
+		name string
+		args []string
+		want string
+	}{
+		{"above cap", []string{"stimulus", "-o", out, "--kind", "noise", "--level", "-3"}, "output.level_dbfs"},
+		{"unknown kind", []string{"stimulus", "-o", out, "--kind", "chirp"}, "choose one of"},
+		{"no kind", []string{"stimulus", "-o", out}, "--kind"},
+		{"bad level unit", []string{"stimulus", "-o", out, "--kind", "noise", "--level", "-20 dBu"}, "dBFS"},
+		{"bad encoding", []string{"stimulus", "-o", out, "--kind", "noise", "--encoding", "mp3"}, "encoding"},
+		{"to beyond Nyquist", []string{"stimulus", "-o", out, "--kind", "logsweep", "--rate", "44.1k", "--to", "23k"}, "Nyquist"},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			code, _, stderr := runCLI(t, c.args...)
+			if code != exitUsage || !strings.Contains(stderr, c.want) {
+				t.Errorf("exit %d, stderr %q; want exit 2 mentioning %q", code, stderr, c.want)
+			}
+			if _, err := os.Stat(out); err == nil {
+				t.Errorf("output file left behind")
+			}
+		})
+	}
+}
+
+// TestStimulusThenAnalyze is a loop through files: a pink stimulus written
+// by tonetrace, filtered in the test by a cookbook biquad, analysed.
+func TestStimulusThenAnalyze(t *testing.T) {
+	dir := t.TempDir()
+	stim := filepath.Join(dir, "pink.wav")
+	if code, _, stderr := runCLI(t, "stimulus", "-o", stim, "--kind", "pink", "--seconds", "6", "--level", "-10"); code != exitOK {
+		t.Fatalf("stimulus: %s", stderr)
+	}
+	a, err := wavfile.ReadFile(stim)
+	if err != nil {
+		t.Fatal(err)
+	}
+	hp := cookbook("highpass", 120, 0.9, 0, 48000)
+	a.Channels[0] = hp.filter(a.Channels[0])
+	rec := filepath.Join(dir, "rec.wav")
+	if err := wavfile.WriteFile(rec, a, wavfile.Float32); err != nil {
+		t.Fatal(err)
+	}
+	out := filepath.Join(dir, "out.csv")
+	if code, _, stderr := runCLI(t, "analyze", rec, "-o", out, "--ppd", "0"); code != exitOK {
+		t.Fatalf("analyze: %s", stderr)
+	}
+	tr, err := trace.LoadFile(out)
+	if err != nil {
+		t.Fatal(err)
+	}
+	compareWithBiquad(t, tr, hp, 48000, 0.1, 1.0)
+}
+
+func TestConfigInitAndShow(t *testing.T) {
+	path := filepath.Join(t.TempDir(), "sub", "config.toml")
+	if code, _, stderr := runCLI(t, "--config", path, "config", "init"); code != exitOK {
+		t.Fatalf("init: %s", stderr)
+	}
+	code, stdout, stderr := runCLI(t, "--config", path, "config", "show")
+	if code != exitOK {
+		t.Fatalf("show: %s", stderr)
+	}
+	for _, want := range []string{"[output]", "cap_dbfs", "to_hz", "rate "} {
+		if !strings.Contains(stdout, want) {
+			t.Errorf("config show lacks %s:\n%s", want, stdout)
+		}
+	}
+	if code, _, _ := runCLI(t, "--config", path, "config", "init"); code != exitUsage {
+		t.Errorf("init over an existing file: exit %d, want 2", code)
+	}
+	// A bad value in the file is reported with file:line.
+	if err := os.WriteFile(path, []byte("[output]\nlevel_dbfs = 3\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	code, _, stderr = runCLI(t, "--config", path, "config", "show")
+	if code != exitUsage || !strings.Contains(stderr, "config.toml:2") {
+		t.Errorf("exit %d, stderr %q; want exit 2 naming config.toml:2", code, stderr)
+	}
+}
+
+func TestVersion(t *testing.T) {
+	code, stdout, _ := runCLI(t, "version")
+	if code != exitOK || !strings.HasPrefix(stdout, "tonetrace ") {
+		t.Errorf("version: exit %d, %q", code, stdout)
+	}
+}
