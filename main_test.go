@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"context"
 	"flag"
+	"io"
 	"math"
 	"math/cmplx"
 	"math/rand/v2"
@@ -455,5 +456,30 @@ func TestVersion(t *testing.T) {
 	code, stdout, _ := runCLI(t, "version")
 	if code != exitOK || !strings.HasPrefix(stdout, "tonetrace ") {
 		t.Errorf("version: exit %d, %q", code, stdout)
+	}
+}
+
+// BenchmarkAnalyze60s times the whole analyze command on a 60 s stereo
+// 48 kHz float32 recording: read, Welch H1 with 8192-point segments, write.
+// The issue asks for well under a second.
+func BenchmarkAnalyze60s(b *testing.B) {
+	dir := b.TempDir()
+	rec := filepath.Join(dir, "rec.wav")
+	rng := rand.New(rand.NewPCG(3, 4))
+	x := make([]float64, 60*48000)
+	for i := range x {
+		x[i] = 0.1 * rng.NormFloat64()
+	}
+	y := cookbook("lowpass", 1000, math.Sqrt2/2, 0, 48000).filter(x)
+	if err := wavfile.WriteFile(rec, &wavfile.Audio{Rate: 48000, Channels: [][]float64{y, x}}, wavfile.Float32); err != nil {
+		b.Fatal(err)
+	}
+	out := filepath.Join(dir, "out.csv")
+	b.Setenv("XDG_CONFIG_HOME", dir)
+	b.ReportAllocs()
+	for b.Loop() {
+		if code := run(context.Background(), []string{"analyze", rec, "-o", out}, io.Discard, io.Discard); code != exitOK {
+			b.Fatalf("exit %d", code)
+		}
 	}
 }

@@ -1,14 +1,12 @@
 package wavfile
 
 import (
-	"bufio"
 	"encoding/binary"
 	"errors"
 	"fmt"
 	"io"
 	"math"
-	"os"
-	"path/filepath"
+	"tonetrace/config/atomicfile"
 )
 
 // maxDataBytes is the largest data chunk a RIFF file can describe once the
@@ -187,51 +185,5 @@ func WriteFile(path string, a *Audio, enc Encoding) error {
 	if err := check(a, enc); err != nil {
 		return err
 	}
-	return writeAtomic(path, func(w io.Writer) error { return Write(w, a, enc) })
-}
-
-// writeAtomic writes a file through fill into a temporary file next to
-// path, syncs it and renames it to path.
-func writeAtomic(path string, fill func(io.Writer) error) (err error) {
-	dir, base := filepath.Split(path)
-	if dir == "" {
-		dir = "."
-	}
-	f, err := os.CreateTemp(dir, "."+base+".tmp-*")
-	if err != nil {
-		return fmt.Errorf("wavfile: creating %s: %w", path, err)
-	}
-	tmp := f.Name()
-	defer func() {
-		if err != nil {
-			f.Close()
-			os.Remove(tmp)
-		}
-	}()
-	bw := bufio.NewWriterSize(f, 1<<16)
-	if err := fill(bw); err != nil {
-		return fmt.Errorf("%w (writing %s)", err, path)
-	}
-	if err := bw.Flush(); err != nil {
-		return fmt.Errorf("wavfile: writing %s: %w", path, err)
-	}
-	if err := f.Chmod(0o644); err != nil {
-		return fmt.Errorf("wavfile: writing %s: %w", path, err)
-	}
-	if err := f.Sync(); err != nil {
-		return fmt.Errorf("wavfile: writing %s: %w", path, err)
-	}
-	if err := f.Close(); err != nil {
-		return fmt.Errorf("wavfile: writing %s: %w", path, err)
-	}
-	if err := os.Rename(tmp, path); err != nil {
-		return fmt.Errorf("wavfile: writing %s: %w", path, err)
-	}
-	// Make the rename itself durable; not every system can sync a
-	// directory, and the file is complete either way.
-	if d, derr := os.Open(dir); derr == nil {
-		d.Sync()
-		d.Close()
-	}
-	return nil
+	return atomicfile.Write(path, func(w io.Writer) error { return Write(w, a, enc) })
 }

@@ -7,9 +7,9 @@ import (
 	"io"
 	"math"
 	"os"
-	"path/filepath"
 	"strconv"
 	"strings"
+	"tonetrace/config/atomicfile"
 )
 
 // Column is an optional column of the CSV form. The mandatory columns
@@ -625,7 +625,7 @@ func shorten(s string) string {
 // a temporary file in the same directory, flushes it to disk and renames
 // it over path. On any error the temporary file is removed and an existing
 // file at path is left as it was. The new file has permissions 0644.
-func SaveFile(path string, t *Trace, always ...Column) (err error) {
+func SaveFile(path string, t *Trace, always ...Column) error {
 	if t == nil {
 		return errors.New("trace: SaveFile of a nil trace")
 	}
@@ -635,42 +635,7 @@ func SaveFile(path string, t *Trace, always ...Column) (err error) {
 	if err := checkPoints(t.Points); err != nil {
 		return fmt.Errorf("%w (not writing %s)", err, path)
 	}
-	dir, base := filepath.Split(path)
-	if dir == "" {
-		dir = "."
-	}
-	f, err := os.CreateTemp(dir, "."+base+".tmp-*")
-	if err != nil {
-		return fmt.Errorf("trace: creating %s: %w", path, err)
-	}
-	tmp := f.Name()
-	defer func() {
-		if err != nil {
-			f.Close()
-			os.Remove(tmp)
-		}
-	}()
-	if err := Write(f, t, always...); err != nil {
-		return fmt.Errorf("%w (writing %s)", err, path)
-	}
-	if err := f.Chmod(0o644); err != nil {
-		return fmt.Errorf("trace: writing %s: %w", path, err)
-	}
-	if err := f.Sync(); err != nil {
-		return fmt.Errorf("trace: writing %s: %w", path, err)
-	}
-	if err := f.Close(); err != nil {
-		return fmt.Errorf("trace: writing %s: %w", path, err)
-	}
-	if err := os.Rename(tmp, path); err != nil {
-		return fmt.Errorf("trace: writing %s: %w", path, err)
-	}
-	// Make the rename durable; not every system can sync a directory.
-	if d, derr := os.Open(dir); derr == nil {
-		d.Sync()
-		d.Close()
-	}
-	return nil
+	return atomicfile.Write(path, func(w io.Writer) error { return Write(w, t, always...) })
 }
 
 // LoadFile reads the trace CSV at path (see [Read]). Errors name the file:
