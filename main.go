@@ -37,6 +37,7 @@ import (
 	"tonetrace/dsp/spectral"
 	"tonetrace/dsp/stimulus"
 	"tonetrace/dsp/trace"
+	"tonetrace/tui/plot"
 )
 
 // version is set at release time with -ldflags "-X main.version=…";
@@ -115,6 +116,9 @@ type app struct {
 	stdout, stderr io.Writer
 	args           []string
 	configPath     string
+	plot           bool // analyze --plot
+	plotSize       string
+	plotASCII      bool
 }
 
 func (a *app) rootCommand() *cobra.Command {
@@ -133,7 +137,7 @@ reference). The ratio of the two inputs is the network's response.`,
 		return usageError{fmt.Errorf("%s: %w; see '%s --help'", c.Name(), err, c.CommandPath())}
 	})
 	root.PersistentFlags().StringVar(&a.configPath, "config", "", "settings file (default: the user's config directory, tonetrace/config.toml)")
-	root.AddCommand(a.analyzeCommand(), a.stimulusCommand(), a.configCommand(), a.versionCommand())
+	root.AddCommand(a.analyzeCommand(), a.stimulusCommand(), a.plotCommand(), a.configCommand(), a.versionCommand())
 	return root
 }
 
@@ -265,6 +269,8 @@ or programme material with enough level across the band.`,
 	f.String("from", "20", "lowest frequency to write, Hz (SI suffixes allowed: 20, 1k)")
 	f.String("to", "20k", "highest frequency to write, Hz; at most half the sample rate")
 	f.Int("ppd", 0, "average into N log-spaced points per decade (0: every bin)")
+	a.plotFlags(f)
+	f.BoolVar(&a.plot, "plot", false, "also draw the response as a text Bode plot on stdout")
 	return cmd
 }
 
@@ -346,6 +352,9 @@ func (a *app) analyze(ctx context.Context, fs *pflag.FlagSet, in, out string) er
 		return err
 	}
 	a.summarize("analyze", out, &t, float64(rec.Frames())/float64(rec.Rate), w.Segments())
+	if a.plot {
+		a.drawBode(s.Sweep.FromHz, s.Sweep.ToHz, namedTrace{filepath.Base(out), &t})
+	}
 	return nil
 }
 
@@ -588,4 +597,95 @@ func (a *app) configCommand() *cobra.Command {
 	initCmd.Flags().BoolVar(&force, "force", false, "replace an existing file")
 	cmd.AddCommand(show, initCmd)
 	return cmd
+}
+
+// ---- plot -------------------------------------------------------------------
+
+func (a *app) plotCommand() *cobra.Command {
+	var from, to string
+	cmd := &cobra.Command{
+		Use:   "plot TRACE.csv [TRACE.csv ...]",
+		Short: "draw saved traces as a text Bode plot (gain above phase) on stdout",
+		Long: `plot draws one or more trace files as a Bode plot made of braille
+characters, gain above phase on one logarithmic frequency axis: a quick look
+over SSH, in a log, or in a report pasted as text. Up to four traces.`,
+		Example: `  tonetrace plot bench.csv
+  tonetrace plot before.csv after.csv --size 120x36 --from 20 --to 20k`,
+		Args: func(cmd *cobra.Command, args []string) error {
+			if len(args) < 1 || len(args) > 4 {
+				return usagef("plot: give one to four trace files, e.g. tonetrace plot bench.csv")
+			}
+			return nil
+		},
+		RunE: func(cmd *cobra.Command, args []string) error {
+			var traces []namedTrace
+			lo, hi := math.Inf(1), math.Inf(-1)
+			for _, path := range args {
+				t, err := trace.LoadFile(path)
+				if err != nil {
+					return usageError{err}
+				}
+				if len(t.Points) == 0 {
+					return usagef("%s holds no points; nothing to draw", path)
+				}
+				lo = min(lo, t.Points[0].Freq)
+				hi = max(hi, t.Points[len(t.Points)-1].Freq)
+				traces = append(traces, namedTrace{filepath.Base(path), t})
+			}
+			f0, f1 := lo, hi
+			var err error
+			if from != "" {
+				if f0, err = config.ParseFrequency(from); err != nil {
+					return usagef("--from: %v", err)
+				}
+			}
+			if to != "" {
+				if f1, err = config.ParseFrequency(to); err != nil {
+					return usagef("--to: %v", err)
+				}
+			}
+			if !(f0 > 0 && f1 > f0) {
+				return usagef("plot range %g to %g Hz is empty; give --from below --to, both above 0", f0, f1)
+			}
+			return a.drawBode(f0, f1, traces...)
+		},
+	}
+	f := cmd.Flags()
+	f.StringVar(&from, "from", "", "lowest frequency drawn, Hz (default: the traces' lowest)")
+	f.StringVar(&to, "to", "", "highest frequency drawn, Hz (default: the traces' highest)")
+	a.plotFlags(f)
+	return cmd
+}
+
+// plotFlags adds the flags every text plot shares.
+func (a *app) plotFlags(f *pflag.FlagSet) {
+	f.StringVar(&a.plotSize, "size", "", "plot size in characters, WIDTHxHEIGHT (default: 100x32)")
+	f.BoolVar(&a.plotASCII, "ascii", false, "draw with ASCII characters only (for terminals without braille)")
+}
+
+// namedTrace is a trace with the name its legend shows.
+type namedTrace struct {
+	name string
+	t    *trace.Trace
+}
+
+// drawBode writes a text Bode plot of the traces to stdout.
+func (a *app) drawBode(from, to float64, traces ...namedTrace) error {
+	w, h := 100, 32
+	if a.plotSize != "" {
+		if _, err := fmt.Sscanf(a.plotSize, "%dx%d", &w, &h); err != nil || w < 20 || h < 8 || w > 1000 || h > 1000 {
+			return usagef("--size %q: give WIDTHxHEIGHT in characters, from 20x8 to 1000x1000, e.g. 120x36", a.plotSize)
+		}
+	}
+	curves := make([]plot.Curve, len(traces))
+	for i, nt := range traces {
+		curves[i] = plot.CurveFromPoints(plot.Curve{}, nt.t.Points)
+		curves[i].Name = nt.name
+		curves[i].Style = i
+	}
+	gain := plot.Axis{Auto: true, MinSpan: 6, Unit: "dB"}
+	phase := plot.Axis{Auto: true, MinSpan: 90, Step: 45, Unit: "deg"}
+	g := plot.Bode(w, h, plot.Options{From: from, To: to, ASCII: a.plotASCII, MarkClip: true}, gain, phase, curves...)
+	_, err := fmt.Fprintln(a.stdout, g.String())
+	return err
 }

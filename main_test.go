@@ -483,3 +483,44 @@ func BenchmarkAnalyze60s(b *testing.B) {
 		}
 	}
 }
+
+// TestPlotCommand draws the example's response and checks the frame: the
+// requested size, braille traces, decade labels and both panels.
+func TestPlotCommand(t *testing.T) {
+	out := filepath.Join(t.TempDir(), "ex.csv")
+	if code, _, stderr := runCLI(t, "analyze", exampleFile, "-o", out, "--ppd", "24"); code != exitOK {
+		t.Fatalf("analyze: %s", stderr)
+	}
+	code, stdout, stderr := runCLI(t, "plot", out, "--size", "90x30")
+	if code != exitOK {
+		t.Fatalf("plot exit %d: %s", code, stderr)
+	}
+	lines := strings.Split(strings.TrimRight(stdout, "\n"), "\n")
+	if len(lines) != 30 {
+		t.Errorf("%d rows, want 30", len(lines))
+	}
+	for i, l := range lines {
+		if n := len([]rune(l)); n != 90 {
+			t.Errorf("row %d is %d runes wide, want 90", i, n)
+		}
+	}
+	braille := strings.IndexFunc(stdout, func(r rune) bool { return r > 0x2800 && r <= 0x28FF }) >= 0
+	if !braille {
+		t.Error("no braille trace in the plot")
+	}
+	for _, want := range []string{"100", "1k", "10k", "Gain", "Phase", "ex.csv"} {
+		if !strings.Contains(stdout, want) {
+			t.Errorf("plot lacks %q", want)
+		}
+	}
+	for _, c := range []struct{ args []string }{
+		{[]string{"plot"}},
+		{[]string{"plot", out, "--size", "5x5"}},
+		{[]string{"plot", filepath.Join(t.TempDir(), "missing.csv")}},
+		{[]string{"plot", out, "--from", "2k", "--to", "1k"}},
+	} {
+		if code, _, stderr := runCLI(t, c.args...); code != exitUsage {
+			t.Errorf("%v: exit %d, want 2 (%s)", c.args, code, stderr)
+		}
+	}
+}
