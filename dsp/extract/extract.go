@@ -26,9 +26,12 @@
 // inside the bracketing interval (bisection), extremes are found by a scan
 // and golden-section search, group delay τ = −dφ/dω is the model's
 // derivative. Slopes are least-squares lines in (log10 f, dB) over the
-// last half decade at each end. Where the gain is noisy (see
-// [Options.NoiseDB]) a peak or notch must stand out from the noise, and
-// one that barely does is interpolated in dB only.
+// last half decade at each end; where that window catches the dying
+// skirt of a feature further in, an end is judged by its slope at the end
+// frequency instead (see [Options.FlatSlope]), so that a coarse or banded
+// trace whose ends have not quite settled keeps its shape. Where the gain
+// is noisy (see [Options.NoiseDB]) a peak or notch must stand out from
+// the noise, and one that barely does is interpolated in dB only.
 //
 // The corners are the half-power points: the gain crosses the passband
 // level minus [HalfPowerDB] = 10·log10(2) ≈ 3.0103 dB, not minus exactly
@@ -64,28 +67,37 @@ type Shape int
 const (
 	// ShapeOther is anything not described below: a trace whose ends
 	// both rise or both fall (an integrator, a trace that starts beyond
-	// the corner), or a low end that falls while the high end is flat.
+	// the corner), a low end that falls while the high end is flat, or an
+	// end that is neither flat nor heading one way out to the edge of the
+	// trace (its window straddles a peak or a dip, as when a trace stops
+	// just past a notch).
 	ShapeOther Shape = iota
 	// ShapeFlat: the spread of the gain stays within Options.FlatRangeDB
 	// plus six times the noise level (an amplifier, a cable, an all-pass
 	// network).
 	ShapeFlat
 	// ShapeLowpass: flat low end, high end falling at least
-	// Options.FlatSlope dB/decade, or flat but more than
+	// Options.FlatSlope dB/decade to its last point, or flat but more than
 	// Options.ShelfMaxDB lower (a stop band on the measurement floor). May
 	// carry a resonant peak.
 	ShapeLowpass
-	// ShapeHighpass: low end rising (or flat and more than
-	// Options.ShelfMaxDB lower), flat high end.
+	// ShapeHighpass: low end rising (falling toward its first point), or
+	// flat and more than Options.ShelfMaxDB lower; flat high end.
 	ShapeHighpass
 	// ShapeBandpass: low end rising and high end falling.
 	ShapeBandpass
 	// ShapeNotch (band-stop): both ends flat at the same level and an
-	// interior dip at least Options.NotchMinDB below them.
+	// interior dip at least Options.NotchMinDB below them (or one end
+	// returning from the dip, as for ShapePeaking).
 	ShapeNotch
 	// ShapePeaking: both ends flat at the same level and an interior bump,
 	// or a dip shallower than Options.NotchMinDB (a peaking equaliser's
 	// boost or cut, a resonance on a flat line).
+	//
+	// A notch or peaking response may also have only one flat end: the
+	// other end is still on the skirt of the bump or dip, heading back
+	// toward the flat end's level (not beyond it by more than the bump
+	// threshold) with a slope that dies away toward the end.
 	ShapePeaking
 	// ShapeShelf: both ends flat, at levels more than Options.ShelfMinDB
 	// and at most Options.ShelfMaxDB apart (a shelving equaliser, a lag or
@@ -225,21 +237,33 @@ type Params struct {
 
 	// PassbandDelay is the group delay of the passband in seconds:
 	// the least-squares slope of phase against linear frequency over the
-	// plateau's end window for low-pass, high-pass and shelf (the low
-	// plateau), over the whole trace for flat; the delay at the peak for
-	// band-pass and other shapes with a peak; NaN for notch and peaking.
+	// plateau's end window for low-pass and high-pass, over the whole
+	// trace for flat; the delay at the peak for band-pass and other shapes
+	// with a peak.
+	//
+	// It is NaN for notch, peaking and shelf: their plateaus are not a
+	// passband, and the phase slope there belongs to the skirt of the
+	// section — below f0 a peaking boost advances the phase in
+	// proportion to frequency, a constant negative delay of
+	// −(A − 1/A)/(Q·2πf0) for the Audio EQ Cookbook's analog prototype
+	// (A = 10^(gain/40); −40 µs for +6 dB, Q 1 at 2.8 kHz). The delay at
+	// a peak is in Peak.GroupDelay.
 	PassbandDelay float64
 
 	// LowLevelDB and HighLevelDB are the levels in dB of the plateaus at
 	// the low and high ends of the trace, taken at the end frequency: the
 	// median of the end window's gains after removing its least-squares
-	// slope. NaN when that end is not flat.
+	// slope, or, for an end that is flat only at the end of a dying skirt
+	// (see Options.FlatSlope), the gain that the skirt reaches at the end
+	// frequency. NaN when that end is not flat.
 	LowLevelDB, HighLevelDB float64
 
 	// SlopeLow and SlopeHigh are the asymptotic slopes in dB/decade at
 	// the low and high ends: least-squares lines over the last
-	// Options.EndDecades of the trace. NaN when that end is flat (the
-	// magnitude of the slope is below Options.FlatSlope).
+	// Options.EndDecades of the trace. NaN when that end is flat (see
+	// Options.FlatSlope), and for the end of a peaking or notch response
+	// that the trace leaves on the skirt of the peak or dip, on its way
+	// back to the plateau (its slope is the skirt's, not an asymptote).
 	SlopeLow, SlopeHigh float64
 
 	// Corners are all crossings of PassbandGainDB − HalfPowerDB, in
@@ -266,6 +290,16 @@ type Options struct {
 	EndDecades float64
 	// FlatSlope is the slope magnitude in dB/decade below which an end
 	// counts as flat (a plateau). Default 3 dB/decade.
+	//
+	// The slope is the least-squares slope over the end window, or the
+	// slope at the end frequency where the window holds the dying skirt
+	// of a peak, a dip or a shelf further in: the slopes of the window's
+	// two halves have the same sign, the outer one is smaller, and the
+	// gain keeps going its way to the end. The slope is then taken to
+	// die away geometrically toward the end (as the gain of any rational
+	// response settles onto a constant, as f^∓2) and extrapolated to it.
+	// A coarse trace that stops before such a skirt has fully settled is
+	// thus not taken for a low-pass or high-pass.
 	FlatSlope float64
 	// FlatRangeDB is the spread of gain (highest − lowest point) within
 	// which the whole trace is ShapeFlat, widened by 6·NoiseDB. Default
@@ -423,11 +457,45 @@ func (a *Analyzer) AnalyzeInto(dst *Params, points []trace.Point) error {
 	hiN = nw(hiN)
 	slopeLo, levelLo, rmsLo := a.endFit(0, loN, u[0])
 	slopeHi, levelHi, rmsHi := a.endFit(n-hiN, n, u[n-1])
+	// An end counts as flat when its slope over the window is below
+	// FlatSlope, or when the window holds the dying skirt of a feature
+	// further in and the slope extrapolated to the end is (see endSkirt;
+	// confirmed below). The skirt, not a line, then describes the window.
+	loFlat := math.Abs(slopeLo) < o.FlatSlope
+	hiFlat := math.Abs(slopeHi) < o.FlatSlope
+	skLo, skHi := noSkirt(), noSkirt()
+	if !loFlat {
+		skLo = a.endSkirt(0, loN, true)
+	}
+	if !hiFlat {
+		skHi = a.endSkirt(n-hiN, n, false)
+	}
+	loSettles := !loFlat && math.Abs(skLo.endSlope) < o.FlatSlope
+	hiSettles := !hiFlat && math.Abs(skHi.endSlope) < o.FlatSlope
+	if loSettles {
+		rmsLo = skLo.rms
+	}
+	if hiSettles {
+		rmsHi = skHi.rms
+	}
 	a.noise = o.NoiseDB
 	if !(a.noise > 0) || math.IsInf(a.noise, 1) {
 		a.noise = a.noiseFrom(points, rmsLo, rmsHi)
 	}
 	bump := math.Max(o.MinBumpDB, 4*a.noise)
+	// A slope tells where an end is heading only if the gain keeps going
+	// its way to the end; a window that straddles a peak or a dip gives
+	// the end no direction, and no skirt either.
+	loMono := a.monotoneEnd(0, loN, true, slopeLo, bump)
+	hiMono := a.monotoneEnd(n-hiN, n, false, slopeHi, bump)
+	if loSettles && loMono {
+		loFlat, levelLo = true, skLo.level
+	}
+	if hiSettles && hiMono {
+		hiFlat, levelHi = true, skHi.level
+	}
+	loRise := !loFlat && loMono && slopeLo > 0
+	hiFall := !hiFlat && hiMono && slopeHi < 0
 	// A latency shows as phase falling in proportion to frequency at the
 	// high end, where the phase of a lumped network has settled. Below
 	// 30° over the window it is too small to matter and is not removed,
@@ -436,19 +504,6 @@ func (a *Analyzer) AnalyzeInto(dst *Params, points []trace.Point) error {
 	if math.Abs(a.tau*(a.f[n-1]-a.f[n-hiN])*360) < 30 {
 		a.tau = 0
 	}
-	loFlat := math.Abs(slopeLo) < o.FlatSlope
-	hiFlat := math.Abs(slopeHi) < o.FlatSlope
-	if !loFlat {
-		dst.SlopeLow = slopeLo
-	} else {
-		dst.LowLevelDB = levelLo
-	}
-	if !hiFlat {
-		dst.SlopeHigh = slopeHi
-	} else {
-		dst.HighLevelDB = levelHi
-	}
-
 	kMax, kMin := 0, 0
 	for i := 1; i < n; i++ {
 		if g[i] > g[kMax] {
@@ -477,6 +532,21 @@ func (a *Analyzer) AnalyzeInto(dst *Params, points []trace.Point) error {
 		gMin = a.nt.v
 	}
 
+	// An end still on the skirt of the peak or the notch, on its way back
+	// to the plateau at the other end.
+	retLo := !flat && !loFlat && hiFlat && loMono && a.returning(skLo, slopeLo, true, levelHi, bump)
+	retHi := !flat && loFlat && !hiFlat && hiMono && a.returning(skHi, slopeHi, false, levelLo, bump)
+	if !loFlat && !retLo {
+		dst.SlopeLow = slopeLo
+	} else if loFlat {
+		dst.LowLevelDB = levelLo
+	}
+	if !hiFlat && !retHi {
+		dst.SlopeHigh = slopeHi
+	} else if hiFlat {
+		dst.HighLevelDB = levelHi
+	}
+
 	// Shape.
 	shape := ShapeOther
 	boost := true // for ShapePeaking: the bump outweighs the dip
@@ -488,12 +558,17 @@ func (a *Analyzer) AnalyzeInto(dst *Params, points []trace.Point) error {
 		shape = ShapeLowpass // the high plateau is a stop band or a floor
 	case loFlat && hiFlat && levelHi-levelLo > o.ShelfMaxDB:
 		shape = ShapeHighpass
-	case loFlat && hiFlat:
-		if math.Abs(levelLo-levelHi) > o.ShelfMinDB {
-			shape = ShapeShelf
-			break
+	case loFlat && hiFlat && math.Abs(levelLo-levelHi) > o.ShelfMinDB:
+		shape = ShapeShelf
+	case loFlat && hiFlat, retLo, retHi:
+		switch {
+		case retLo:
+			plateau = levelHi
+		case retHi:
+			plateau = levelLo
+		default:
+			plateau = 0.5 * (levelLo + levelHi)
 		}
-		plateau = 0.5 * (levelLo + levelHi)
 		up, down := gMax-plateau, plateau-gMin
 		boost = up >= down
 		if !boost && down >= o.NotchMinDB {
@@ -501,11 +576,11 @@ func (a *Analyzer) AnalyzeInto(dst *Params, points []trace.Point) error {
 		} else {
 			shape = ShapePeaking
 		}
-	case loFlat && slopeHi < 0:
+	case loFlat && hiFall:
 		shape = ShapeLowpass
-	case slopeLo > 0 && hiFlat:
+	case loRise && hiFlat:
 		shape = ShapeHighpass
-	case slopeLo > 0 && slopeHi < 0:
+	case loRise && hiFall:
 		shape = ShapeBandpass
 	}
 	dst.Shape = shape
@@ -539,7 +614,7 @@ func (a *Analyzer) AnalyzeInto(dst *Params, points []trace.Point) error {
 
 	// Passband delay.
 	switch shape {
-	case ShapeLowpass, ShapeShelf:
+	case ShapeLowpass:
 		dst.PassbandDelay = -lsqSlope(a.f[:loN], a.ph[:loN]) / 360
 	case ShapeHighpass:
 		dst.PassbandDelay = -lsqSlope(a.f[n-hiN:], a.ph[n-hiN:]) / 360
@@ -740,6 +815,144 @@ func (a *Analyzer) endFit(i0, i1 int, uEnd float64) (slope, level, rms float64) 
 		rms = math.Sqrt(ss / float64(len(w)-2))
 	}
 	return slope, median(w), rms
+}
+
+// skirt describes how the slope of an end window changes toward the end
+// of the trace; see endSkirt.
+type skirt struct {
+	decay    float64 // p in 1/decade, |slope| ∝ 10^(p·v); NaN when the slope does not die away
+	endSlope float64 // slope extrapolated to the end in dB/decade; NaN when decay is
+	level    float64 // gain of the fitted skirt at the end in dB; NaN when decay is
+	rms      float64 // RMS residual of the fitted skirt in dB; NaN when decay is
+}
+
+// noSkirt returns the skirt of an end that has none: every field NaN.
+func noSkirt() skirt {
+	nan := math.NaN()
+	return skirt{decay: nan, endSlope: nan, level: nan, rms: nan}
+}
+
+// endSkirt examines the end window [i0, i1) (at the low end of the trace
+// when low is true) for a slope that dies away toward the end of the
+// trace, as on the skirt of a peak, a dip or a shelf that settles onto a
+// plateau beyond the end. Least-squares lines through the half of the
+// window nearer the end (outer) and the half farther in (inner), which
+// share the middle point when the count is odd, give two slopes at the
+// halves' mean distances v from the end. When the slopes have the same
+// sign and the outer one is the smaller, the slope is taken to decay
+// geometrically toward the end, |s(v)| = |s_end|·10^(p·v) — the way the
+// gain of any rational response approaches a constant, as f^∓2 — and
+// extrapolated to v = 0. An asymptote (a constant slope, or one growing
+// toward the end) yields NaN, as does a window of fewer than 4 points.
+func (a *Analyzer) endSkirt(i0, i1 int, low bool) skirt {
+	sk := noSkirt()
+	cnt := i1 - i0
+	if cnt < 4 {
+		return sk
+	}
+	half := (cnt + 1) / 2
+	oi0, oi1, ii0, ii1 := i0, i0+half, i1-half, i1 // outer and inner halves, low end
+	uEnd := a.u[i0]
+	if !low {
+		oi0, oi1, ii0, ii1 = i1-half, i1, i0, i0+half
+		uEnd = a.u[i1-1]
+	}
+	dist := func(j0, j1 int) float64 {
+		var v float64
+		for _, x := range a.u[j0:j1] {
+			v += math.Abs(x - uEnd)
+		}
+		return v / float64(j1-j0)
+	}
+	sIn := lsqSlope(a.u[ii0:ii1], a.g[ii0:ii1])
+	sOut := lsqSlope(a.u[oi0:oi1], a.g[oi0:oi1])
+	vIn, vOut := dist(ii0, ii1), dist(oi0, oi1)
+	r := sOut / sIn
+	if !(r > 0 && r < 1) || !(vIn > vOut) {
+		return sk
+	}
+	p := -math.Log10(r) / (vIn - vOut)
+	sk.decay = p
+	sk.endSlope = sOut * math.Pow(10, -p*vOut)
+	// The level at the end: g = L + B·10^(p·v) fitted by least squares
+	// over the whole window, at v = 0.
+	u, g := a.u[i0:i1], a.g[i0:i1]
+	w := a.work[:cnt]
+	var mw, mg float64
+	for i := range u {
+		w[i] = math.Pow(10, p*math.Abs(u[i]-uEnd))
+		mw += w[i]
+		mg += g[i]
+	}
+	mw /= float64(cnt)
+	mg /= float64(cnt)
+	var sww, swg float64
+	for i := range u {
+		sww += (w[i] - mw) * (w[i] - mw)
+		swg += (w[i] - mw) * (g[i] - mg)
+	}
+	b := swg / sww
+	l := mg - b*mw
+	var ss float64
+	for i := range u {
+		e := g[i] - l - b*w[i]
+		ss += e * e
+	}
+	sk.level = l + b
+	sk.rms = math.Sqrt(ss / float64(cnt-2))
+	return sk
+}
+
+// monotoneEnd reports whether the end point of the window [i0, i1) (at
+// the low end of the trace when low is true) is, within tol dB, the
+// extreme of the window that the slope (dB/decade) heads for: the highest
+// point when the gain rises toward the end, the lowest when it falls.
+func (a *Analyzer) monotoneEnd(i0, i1 int, low bool, slope, tol float64) bool {
+	end, dir := i1-1, math.Copysign(1, slope) // dir: +1 when rising toward the end
+	if low {
+		end, dir = i0, -dir
+	}
+	for _, v := range a.g[i0:i1] {
+		if (a.g[end]-v)*dir < -tol {
+			return false
+		}
+	}
+	return true
+}
+
+// minSkirtDecay is the least decay rate, in 1/decade, of the slope of a
+// skirt returning to a plateau (see returning): the slope must at least
+// halve every 0.6 decade. Far from its centre the skirt of a
+// second-order section settles as f^∓2 (p = 2); within a decade of a
+// broad one (Q 0.5) it decays at about p = 0.7. An asymptote does not
+// decay (p ≤ 0). The stop band of a resonant low-pass also eases toward
+// its asymptote past the peak (p up to about 1 within half a decade of a
+// Q 10 peak), but far below the plateau and at tens of dB/decade, which
+// returning and FlatSlope reject.
+const minSkirtDecay = 0.5
+
+// returning reports whether an end that is not flat is the skirt of the
+// interpolated peak or notch on its way back to the plateau at level
+// plateau (dB) at the other end: the slope points from the extreme toward
+// the plateau, the gain at the end has not passed the plateau by more
+// than bump dB, and the slope dies away toward the end (see endSkirt).
+func (a *Analyzer) returning(sk skirt, slope float64, low bool, plateau, bump float64) bool {
+	if !(sk.decay >= minSkirtDecay) {
+		return false
+	}
+	// side is +1 when the gain comes down from above toward the
+	// plateau, −1 when it comes up from below.
+	side := math.Copysign(1, slope)
+	if !low {
+		side = -side
+	}
+	if (sk.level-plateau)*side < -bump {
+		return false
+	}
+	if side > 0 {
+		return a.pk.ok && a.pk.v-plateau >= bump
+	}
+	return a.nt.ok && plateau-a.nt.v >= bump
 }
 
 // noiseFrom estimates the standard deviation of the gain noise in dB: the

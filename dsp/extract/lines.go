@@ -86,8 +86,11 @@ func depth(v float64) string {
 	return minus(fmt.Sprintf("%.1f", v))
 }
 
-// sig formats v with three significant digits.
-func sig(v float64) string { return minus(fmt.Sprintf("%.3g", v)) }
+// sig formats v with three significant digits, keeping trailing zeros
+// ("1.00", not "1", for a Q of 1.0003).
+func sig(v float64) string {
+	return minus(strings.TrimSuffix(fmt.Sprintf("%#.3g", v), "."))
+}
 
 // hertz formats a frequency with four significant digits and an SI prefix.
 func hertz(f float64) string { return withPrefix(f, "Hz") }
