@@ -33,7 +33,11 @@ import (
 	"tonetrace/audio/wavfile"
 	"tonetrace/config"
 	"tonetrace/dsp/extract"
+	"tonetrace/dsp/fit"
+	"tonetrace/dsp/mna"
 	"tonetrace/dsp/multitone"
+	"tonetrace/dsp/netlist"
+	"tonetrace/dsp/plan"
 	"tonetrace/dsp/spectral"
 	"tonetrace/dsp/stimulus"
 	"tonetrace/dsp/trace"
@@ -137,7 +141,7 @@ reference). The ratio of the two inputs is the network's response.`,
 		return usageError{fmt.Errorf("%s: %w; see '%s --help'", c.Name(), err, c.CommandPath())}
 	})
 	root.PersistentFlags().StringVar(&a.configPath, "config", "", "settings file (default: the user's config directory, tonetrace/config.toml)")
-	root.AddCommand(a.analyzeCommand(), a.stimulusCommand(), a.plotCommand(), a.configCommand(), a.versionCommand())
+	root.AddCommand(a.analyzeCommand(), a.stimulusCommand(), a.predictCommand(), a.fitCommand(), a.plotCommand(), a.configCommand(), a.versionCommand())
 	return root
 }
 
@@ -688,4 +692,233 @@ func (a *app) drawBode(from, to float64, traces ...namedTrace) error {
 	g := plot.Bode(w, h, plot.Options{From: from, To: to, ASCII: a.plotASCII, MarkClip: true}, gain, phase, curves...)
 	_, err := fmt.Fprintln(a.stdout, g.String())
 	return err
+}
+
+// ---- predict ----------------------------------------------------------------
+
+// fixtureFlags are the flags that describe the bench around a network.
+var fixtureFlags = map[string]string{
+	"source-r": "fixture.source_ohms",
+	"load-r":   "fixture.load_ohms",
+	"load-c":   "fixture.load_farads",
+}
+
+// addNetworkFlags adds the flags that choose a netlist's input and output
+// nodes and the fixture; it returns where the node names land.
+func addNetworkFlags(f *pflag.FlagSet, nodes *netlist.Options) {
+	f.StringVar(&nodes.In, "in", "", "input node of the netlist (default: its .io line, else \"in\")")
+	f.StringVar(&nodes.Out, "out", "", "output node of the netlist (default: its .io line, else \"out\")")
+	f.String("source-r", "100", "output resistance of the driving output, ohms (0: ideal source)")
+	f.String("load-r", "20k", "input resistance of the measuring input, ohms")
+	f.String("load-c", "100p", "capacitance across the measuring input and its cable, farads")
+}
+
+// fixture returns the settings' fixture in the form package mna takes.
+func fixture(s *config.Settings) mna.Fixture {
+	return mna.Fixture{SourceOhms: s.Fixture.SourceOhms, LoadOhms: s.Fixture.LoadOhms, LoadFarads: s.Fixture.LoadFarads}
+}
+
+// fixtureText says which fixture a prediction used, for messages.
+func fixtureText(fx mna.Fixture) string {
+	return fmt.Sprintf("source %s, load %s ∥ %s", config.FormatResistance(fx.SourceOhms),
+		config.FormatResistance(fx.LoadOhms), config.FormatCapacitance(fx.LoadFarads))
+}
+
+func mergeFlags(maps ...map[string]string) map[string]string {
+	out := map[string]string{}
+	for _, m := range maps {
+		for k, v := range m {
+			out[k] = v
+		}
+	}
+	return out
+}
+
+func (a *app) predictCommand() *cobra.Command {
+	var (
+		out   string
+		nodes netlist.Options
+	)
+	cmd := &cobra.Command{
+		Use:   "predict NET.cir -o OUT.csv",
+		Short: "predict a network's response from its netlist, including the bench fixture",
+		Long: `predict solves a netlist by modified nodal analysis at log-spaced frequencies
+and writes the response V(out)/V(source) as a trace. The fixture is part of
+the model: the driving output's resistance (--source-r) and the measuring
+input's resistance and capacitance (--load-r, --load-c). Leaving them out of
+a prediction is a classic systematic error: a 100 Ω output and a 10 kΩ input
+move a 10 kΩ/15 nF corner from 1.06 kHz to 2.1 kHz.
+
+Netlist lines: R/C/L name node node value; E name out+ out- in+ in- gain;
+U name out in+ in- (ideal op-amp); node 0 is ground; values like 4k7, 2n2,
+15nF, 10mH.`,
+		Example: `  tonetrace predict filter.cir -o predicted.csv
+  tonetrace predict filter.cir -o ideal.csv --source-r 0 --load-r 1e12 --load-c 0 --ppd 50`,
+		Args: exactArgs(1, "give one netlist: tonetrace predict NET.cir -o OUT.csv"),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			return a.predict(cmd.Flags(), args[0], out, nodes)
+		},
+	}
+	f := cmd.Flags()
+	f.StringVarP(&out, "output", "o", "", "trace file to write (CSV)")
+	f.String("from", "20", "lowest frequency, Hz")
+	f.String("to", "20k", "highest frequency, Hz")
+	f.Int("ppd", 10, "points per decade")
+	addNetworkFlags(f, &nodes)
+	a.plotFlags(f)
+	f.BoolVar(&a.plot, "plot", false, "also draw the prediction as a text Bode plot on stdout")
+	return cmd
+}
+
+var predictFlags = mergeFlags(fixtureFlags, map[string]string{
+	"from": "sweep.from_hz",
+	"to":   "sweep.to_hz",
+	"ppd":  "sweep.points_per_decade",
+})
+
+func (a *app) predict(fs *pflag.FlagSet, in, out string, nodes netlist.Options) error {
+	if err := checkWritable(out); err != nil {
+		return err
+	}
+	s, err := a.settings(fs, predictFlags)
+	if err != nil {
+		return err
+	}
+	// A prediction is not tied to a sample rate; only the measured range
+	// is, so check the range against the highest rate we support.
+	if err := s.Set("audio.rate", "384000", "predict"); err != nil {
+		return err
+	}
+	if err := validate(s); err != nil {
+		return err
+	}
+	n, err := nodes.ParseFile(in)
+	if err != nil {
+		return usageError{err}
+	}
+	freqs, err := plan.PerDecade(s.Sweep.FromHz, s.Sweep.ToHz, s.Sweep.PointsPerDecade)
+	if err != nil {
+		return usageError{err}
+	}
+	fx := fixture(s)
+	d, err := mna.Build(n, fx)
+	if err != nil {
+		return usageError{err}
+	}
+	t, err := mna.Predict(d, freqs)
+	if err != nil {
+		return usageError{err}
+	}
+	t.Meta = append([]trace.MetaItem{{Key: "netlist", Value: filepath.Base(in)}}, t.Meta...)
+	a.stampMeta(&t)
+	if err := trace.SaveFile(out, &t); err != nil {
+		return err
+	}
+	fmt.Fprintf(a.stderr, "%s: predict: wrote %s: %d points, %s to %s, fixture %s\n",
+		programName, out, len(t.Points), formatHz(freqs[0]), formatHz(freqs[len(freqs)-1]), fixtureText(fx))
+	if params, err := extract.Analyze(t.Points); err == nil {
+		for _, line := range params.Lines() {
+			fmt.Fprintf(a.stderr, "%s: predict: %s\n", programName, line)
+		}
+	}
+	if a.plot {
+		return a.drawBode(s.Sweep.FromHz, s.Sweep.ToHz, namedTrace{filepath.Base(out), &t})
+	}
+	return nil
+}
+
+// ---- fit --------------------------------------------------------------------
+
+func (a *app) fitCommand() *cobra.Command {
+	var (
+		free   []string
+		asJSON bool
+		nodes  netlist.Options
+	)
+	cmd := &cobra.Command{
+		Use:   "fit NET.cir MEAS.csv --free R1,C2",
+		Short: "adjust chosen components so the netlist's prediction matches a measured trace",
+		Long: `fit adjusts the components named with --free so that the prediction of the
+netlist (with the fixture) matches a measured trace in the least-squares
+sense over gain (dB) and phase (degrees), weighted by the trace's
+uncertainty columns when it has them. It reports each fitted value with its
+standard uncertainty, the nearest IEC 60063 E12, E24 and E96 values, and the
+RMS residual.`,
+		Example: `  tonetrace fit filter.cir measured.csv --free C1,C2
+  tonetrace fit filter.cir measured.csv --free R3 --json > fit.json`,
+		Args: exactArgs(2, "give a netlist and a measured trace: tonetrace fit NET.cir MEAS.csv --free R1,C2"),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			return a.fit(cmd.Flags(), args[0], args[1], free, asJSON, nodes)
+		},
+	}
+	f := cmd.Flags()
+	f.StringSliceVar(&free, "free", nil, "components to adjust, comma-separated (e.g. R1,C2)")
+	f.BoolVar(&asJSON, "json", false, "print the result as JSON on stdout")
+	addNetworkFlags(f, &nodes)
+	return cmd
+}
+
+func (a *app) fit(fs *pflag.FlagSet, netPath, measPath string, free []string, asJSON bool, nodes netlist.Options) error {
+	if len(free) == 0 {
+		return usagef("fit: name the components to adjust with --free, e.g. --free R1,C2")
+	}
+	s, err := a.settings(fs, fixtureFlags)
+	if err != nil {
+		return err
+	}
+	if err := validate(s); err != nil {
+		return err
+	}
+	n, err := nodes.ParseFile(netPath)
+	if err != nil {
+		return usageError{err}
+	}
+	meas, err := trace.LoadFile(measPath)
+	if err != nil {
+		return usageError{err}
+	}
+	fx := fixture(s)
+	model, err := fit.NewNetlistModel(n, fx)
+	if err != nil {
+		return usageError{err}
+	}
+	res, err := fit.Fit(model, meas.Points, free, fit.Options{})
+	var notConverged *fit.NotConvergedError
+	if err != nil && !errors.As(err, &notConverged) {
+		return usageError{err}
+	}
+	if asJSON {
+		b, jerr := res.MarshalJSON()
+		if jerr != nil {
+			return jerr
+		}
+		fmt.Fprintln(a.stdout, string(b))
+	} else {
+		fmt.Fprintf(a.stdout, "fit of %s to %s (%d points), fixture %s\n", filepath.Base(netPath), filepath.Base(measPath), len(meas.Points), fixtureText(fx))
+		fmt.Fprintf(a.stdout, "%-8s %14s %14s %10s %10s %10s\n", "part", "value", "uncertainty", "E12", "E24", "E96")
+		for _, c := range res.Components {
+			k := netlist.Resistor
+			if e, ok := n.Element(c.Name); ok {
+				k = e.Kind
+			}
+			fmt.Fprintf(a.stdout, "%-8s %14s %14s %10s %10s %10s\n", c.Name, formatPart(k, c.Value), "±"+formatPart(k, c.Uncertainty),
+				formatPart(k, c.E12), formatPart(k, c.E24), formatPart(k, c.E96))
+		}
+		fmt.Fprintf(a.stdout, "rms residual %.3f dB, %.2f°\n", res.RMSdB, res.RMSdeg)
+	}
+	if err != nil {
+		return fmt.Errorf("%w; the values above are the best found, not a converged fit", err)
+	}
+	return nil
+}
+
+// formatPart writes a component value with its unit: "4.7 kΩ", "22 nF".
+func formatPart(k netlist.Kind, v float64) string {
+	switch k {
+	case netlist.Capacitor:
+		return config.FormatCapacitance(v)
+	case netlist.Resistor:
+		return config.FormatResistance(v)
+	}
+	return netlist.FormatValue(k, v)
 }

@@ -524,3 +524,75 @@ func TestPlotCommand(t *testing.T) {
 		}
 	}
 }
+
+// TestPredictFixture checks predict on the first-order RC of REFERENCES.md
+// §5 with and without the fixture: ideal source and no load give the
+// handbook corner (fc = 1/(2πRC) = 1061.0330 Hz, −3.0103 dB, −45°, [V]
+// ngspice-39); a 100 Ω source and 10 kΩ load give DC gain −6.0639 dB and
+// fc′ = 2111.56 Hz (§6, [V]).
+func TestPredictFixture(t *testing.T) {
+	net := "testdata/networks/rc-lowpass.cir"
+	cases := []struct {
+		name             string
+		args             []string
+		wantDC, wantFc   float64
+		tolDC, tolFcFrac float64
+	}{
+		{"ideal fixture", []string{"--source-r", "0", "--load-r", "1T", "--load-c", "0"}, 0, 1061.0330, 1e-4, 1e-4},
+		{"line out into 10k", []string{"--source-r", "100", "--load-r", "10k", "--load-c", "0"}, -6.0639, 2111.56, 1e-3, 1e-4},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			out := filepath.Join(t.TempDir(), "p.csv")
+			args := append([]string{"predict", net, "-o", out, "--from", "1", "--to", "100k", "--ppd", "40"}, c.args...)
+			code, _, stderr := runCLI(t, args...)
+			if code != exitOK {
+				t.Fatalf("exit %d: %s", code, stderr)
+			}
+			tr, err := trace.LoadFile(out)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if dc := tr.Points[0].GainDB(); math.Abs(dc-c.wantDC) > c.tolDC {
+				t.Errorf("gain at 1 Hz %.5f dB, want %.4f", dc, c.wantDC)
+			}
+			p, err := extract.Analyze(tr.Points)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if len(p.Corners) != 1 || math.Abs(p.Corners[0].Freq/c.wantFc-1) > c.tolFcFrac {
+				t.Errorf("corners %+v, want one at %.2f Hz", p.Corners, c.wantFc)
+			}
+			if v, ok := tr.MetaValue("source_ohms"); !ok || v == "" {
+				t.Errorf("prediction does not state its fixture: %v", tr.Meta)
+			}
+		})
+	}
+}
+
+func TestPredictBadInput(t *testing.T) {
+	dir := t.TempDir()
+	bad := filepath.Join(dir, "bad.cir")
+	os.WriteFile(bad, []byte("R1 in out 10k\nQ1 out 0 in 2N3904\n"), 0o644)
+	out := filepath.Join(dir, "p.csv")
+	for _, c := range []struct {
+		name string
+		args []string
+		want string
+	}{
+		{"unknown element", []string{"predict", bad, "-o", out}, "bad.cir:2"},
+		{"missing netlist", []string{"predict", filepath.Join(dir, "none.cir"), "-o", out}, "none.cir"},
+		{"negative source", []string{"predict", "testdata/networks/rc-lowpass.cir", "-o", out, "--source-r", "-5"}, "fixture.source_ohms"},
+		{"no such node", []string{"predict", "testdata/networks/rc-lowpass.cir", "-o", out, "--out", "nowhere"}, "nowhere"},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			code, _, stderr := runCLI(t, c.args...)
+			if code != exitUsage || !strings.Contains(stderr, c.want) {
+				t.Errorf("exit %d, stderr %q; want exit 2 mentioning %q", code, stderr, c.want)
+			}
+			if _, err := os.Stat(out); err == nil {
+				t.Error("output file left behind")
+			}
+		})
+	}
+}
