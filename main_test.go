@@ -3,6 +3,7 @@ package main
 import (
 	"bytes"
 	"context"
+	"encoding/json"
 	"flag"
 	"io"
 	"math"
@@ -594,5 +595,75 @@ func TestPredictBadInput(t *testing.T) {
 				t.Error("output file left behind")
 			}
 		})
+	}
+}
+
+// TestFitRecoversParts builds a "measured" trace by predicting the
+// subwoofer-feed netlist with two capacitors changed, then fits the
+// original netlist's C1 and C2 to it: the fit must find the changed values
+// (a noiseless trace: to 0.1 %) and name their nearest E12 values.
+func TestFitRecoversParts(t *testing.T) {
+	dir := t.TempDir()
+	orig, err := os.ReadFile("testdata/networks/sub-feed.cir")
+	if err != nil {
+		t.Fatal(err)
+	}
+	changed := strings.NewReplacer("C1  a   out 220n", "C1  a   out 270n", "C2  b   0   100n", "C2  b   0   82n").Replace(string(orig))
+	if changed == string(orig) {
+		t.Fatal("test netlist no longer has the expected C1/C2 lines")
+	}
+	built := filepath.Join(dir, "built.cir")
+	os.WriteFile(built, []byte(changed), 0o644)
+	meas := filepath.Join(dir, "meas.csv")
+	if code, _, stderr := runCLI(t, "predict", built, "-o", meas, "--from", "10", "--to", "2k", "--ppd", "20"); code != exitOK {
+		t.Fatalf("predict: %s", stderr)
+	}
+	code, stdout, stderr := runCLI(t, "fit", "testdata/networks/sub-feed.cir", meas, "--free", "C1,C2", "--json")
+	if code != exitOK {
+		t.Fatalf("fit exit %d: %s", code, stderr)
+	}
+	var res struct {
+		Components []struct {
+			Name          string
+			Value         float64
+			Uncertainty   float64
+			E12, E24, E96 float64
+		}
+		RMSdB  float64 `json:"rms_db"`
+		RMSdeg float64 `json:"rms_deg"`
+	}
+	if err := json.Unmarshal([]byte(stdout), &res); err != nil {
+		t.Fatalf("fit --json printed %q: %v", stdout, err)
+	}
+	want := map[string]float64{"C1": 270e-9, "C2": 82e-9}
+	if len(res.Components) != 2 {
+		t.Fatalf("components %+v", res.Components)
+	}
+	for _, c := range res.Components {
+		if math.Abs(c.Value/want[c.Name]-1) > 1e-3 {
+			t.Errorf("%s = %g, want %g", c.Name, c.Value, want[c.Name])
+		}
+		// 270n and 82n are E12 values (IEC 60063).
+		if math.Abs(c.E12/want[c.Name]-1) > 1e-9 {
+			t.Errorf("%s nearest E12 %g, want %g", c.Name, c.E12, want[c.Name])
+		}
+	}
+	if res.RMSdB > 1e-3 {
+		t.Errorf("rms residual %g dB on a noiseless trace", res.RMSdB)
+	}
+	// Plain text form, and the errors a user meets.
+	if code, stdout, _ := runCLI(t, "fit", "testdata/networks/sub-feed.cir", meas, "--free", "C1,C2"); code != exitOK || !strings.Contains(stdout, "E12") {
+		t.Errorf("text output: exit %d\n%s", code, stdout)
+	}
+	for _, c := range []struct {
+		args []string
+		want string
+	}{
+		{[]string{"fit", "testdata/networks/sub-feed.cir", meas}, "--free"},
+		{[]string{"fit", "testdata/networks/sub-feed.cir", meas, "--free", "C9"}, "C9"},
+	} {
+		if code, _, stderr := runCLI(t, c.args...); code != exitUsage || !strings.Contains(stderr, c.want) {
+			t.Errorf("%v: exit %d, %q; want 2 mentioning %q", c.args, code, stderr, c.want)
+		}
 	}
 }
