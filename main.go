@@ -901,8 +901,8 @@ func (a *app) fit(fs *pflag.FlagSet, netPath, measPath string, free []string, as
 			if e, ok := n.Element(c.Name); ok {
 				k = e.Kind
 			}
-			fmt.Fprintf(a.stdout, "%-8s %14s %14s %10s %10s %10s\n", c.Name, formatPart(k, c.Value), "±"+formatPart(k, c.Uncertainty),
-				formatPart(k, c.E12), formatPart(k, c.E24), formatPart(k, c.E96))
+			fmt.Fprintf(a.stdout, "%-8s %14s %14s %10s %10s %10s\n", c.Name, formatPart(k, c.Value, 5), "±"+formatPart(k, c.Uncertainty, 2),
+				formatPart(k, c.E12, 3), formatPart(k, c.E24, 3), formatPart(k, c.E96, 3))
 		}
 		fmt.Fprintf(a.stdout, "rms residual %.3f dB, %.2f°\n", res.RMSdB, res.RMSdeg)
 	}
@@ -912,13 +912,16 @@ func (a *app) fit(fs *pflag.FlagSet, netPath, measPath string, free []string, as
 	return nil
 }
 
-// formatPart writes a component value with its unit: "4.7 kΩ", "22 nF".
-func formatPart(k netlist.Kind, v float64) string {
-	switch k {
-	case netlist.Capacitor:
-		return config.FormatCapacitance(v)
-	case netlist.Resistor:
-		return config.FormatResistance(v)
+// formatPart writes a component value with its unit and the given
+// number of significant digits: "4.7 kΩ", "220 nF", "10 mH".
+func formatPart(k netlist.Kind, v float64, digits int) string {
+	unit := map[netlist.Kind]string{netlist.Resistor: "Ω", netlist.Capacitor: "F", netlist.Inductor: "H"}[k]
+	if v == 0 || math.IsNaN(v) || math.IsInf(v, 0) {
+		return strconv.FormatFloat(v, 'g', digits, 64) + " " + unit
 	}
-	return netlist.FormatValue(k, v)
+	const prefixes = "fpnµm kMG"
+	e := int(math.Floor(math.Log10(math.Abs(v)) / 3))
+	e = max(-5, min(3, e))
+	prefix := strings.TrimSpace(string([]rune(prefixes)[e+5]))
+	return strconv.FormatFloat(v/math.Pow(1000, float64(e)), 'g', digits, 64) + " " + prefix + unit
 }
