@@ -9,8 +9,8 @@ import (
 )
 
 // ParseError reports text that is not a valid quantity. It is returned by
-// [ParseFrequency], [ParseLevel], [ParseResistance] and [ParseCapacitance],
-// and wrapped in a [SettingError] when the text was meant for a setting.
+// [ParseFrequency], [ParseLevel], [ParseResistance], [ParseCapacitance],
+// [ParseInductance] and [ParseGain], and wrapped in a [SettingError] when the text was meant for a setting.
 type ParseError struct {
 	// Input is the text as given.
 	Input string
@@ -48,6 +48,9 @@ type quantity struct {
 	// durations return milliseconds, so a bare number is already in ms
 	// (0) and a number in seconds needs 3.
 	bareScale, unitScale int
+	// meg, when set, also accepts SPICE's "meg" (any case, optionally
+	// followed by a unit) as the prefix 10^6.
+	meg bool
 	// explain, when set, returns a sentence for a rejected unit, or "".
 	explain func(unit string) string
 }
@@ -106,6 +109,31 @@ var (
 		prefixes: map[byte]int{'p': -12, 'P': -12, 'n': -9, 'N': -9, 'u': -6, 'U': -6, 'm': -3},
 		rkm:      map[byte]int{'p': -12, 'n': -9, 'u': -6, 'm': -3},
 	}
+	qInductance = &quantity{
+		name:     "inductance",
+		accepted: `a number in henries, text with an SI prefix (p, n, u or µ, m) and an optional H, e.g. "10m", "10 mH", "4.7uH", or an IEC 60062 code such as "4m7" or "2u2"`,
+		units:    []string{"H"},
+		prefixes: map[byte]int{'p': -12, 'P': -12, 'n': -9, 'N': -9, 'u': -6, 'U': -6, 'm': -3},
+		rkm:      map[byte]int{'p': -12, 'n': -9, 'u': -6, 'm': -3},
+		explain: func(u string) string {
+			if u == "M" || (strings.EqualFold(u, "mh") && u[0] == 'M') {
+				return `"M" would be mega; write "m" for millihenries (SPICE reads M as milli)`
+			}
+			return ""
+		},
+	}
+	qGain = &quantity{
+		name:     "gain",
+		accepted: `a plain number (a voltage ratio, not dB), optionally with an SI prefix (p, n, u or µ, m, k, M or meg, G, T), e.g. "2", "-1", "0.5", "100k", "1meg" or "1e6"`,
+		prefixes: map[byte]int{'p': -12, 'n': -9, 'u': -6, 'm': -3, 'k': 3, 'K': 3, 'M': 6, 'G': 9, 'T': 12},
+		meg:      true,
+		explain: func(u string) string {
+			if strings.EqualFold(u, "db") {
+				return "give the gain as a ratio: 20 dB is 10, 6 dB about 2, -6 dB about 0.5"
+			}
+			return ""
+		},
+	}
 )
 
 // ParseFrequency parses a frequency and returns it in hertz.
@@ -144,6 +172,26 @@ func ParseResistance(s string) (float64, error) { return qResistance.parse(s) }
 // IEC 60062 RKM code: "2n2" = 2.2e-9, "4µ7" = 4.7e-6, "4p7" = 4.7e-12.
 // Errors are *[ParseError].
 func ParseCapacitance(s string) (float64, error) { return qCapacitance.parse(s) }
+
+// ParseInductance parses an inductance and returns it in henries.
+//
+// Accepted: a decimal number in H, optionally with an SI prefix p, n, u (or
+// µ) or m and an optional unit H ("10m", "10 mH", "4.7uH", "100 nH"), or an
+// IEC 60062 RKM code: "4m7" = 4.7e-3, "2u2" = 2.2e-6. The unit is matched
+// without regard to case, prefixes with it: "M" (mega) is rejected with an
+// explanation, since SPICE reads it as milli. Errors are *[ParseError].
+func ParseInductance(s string) (float64, error) { return qInductance.parse(s) }
+
+// ParseGain parses a dimensionless voltage gain and returns it as a ratio.
+//
+// Accepted: a decimal number ("2", "-1", "0.5", "1e6"), optionally followed
+// by an SI prefix p, n, u (or µ), m, k (or K), M, G or T, or SPICE's "meg"
+// in any case ("100k", "1meg", "2.5m"); no unit. Prefixes are
+// case-sensitive as in SI: "1M" is 10^6 and "1m" is 10^-3, whereas SPICE
+// reads both as milli. The sign is kept and zero is accepted; range checks
+// are the caller's. A gain in dB is rejected with an explanation. Errors
+// are *[ParseError].
+func ParseGain(s string) (float64, error) { return qGain.parse(s) }
 
 // parseMillis parses a duration and returns it in milliseconds: a bare
 // number is in ms; "20 ms", "0.5 s", "500 us" carry their unit.
@@ -258,6 +306,8 @@ func (q *quantity) parse(in string) (float64, error) {
 			withUnit = true
 		case !withUnit && q.prefixes != nil && (len(rest) == 1 || q.isUnit(rest[1:])) && q.prefixes[rest[0]] != 0:
 			scale, withUnit = q.unitScale+q.prefixes[rest[0]], true
+		case !withUnit && q.meg && len(rest) >= 3 && strings.EqualFold(rest[:3], "meg") && (len(rest) == 3 || q.isUnit(rest[3:])):
+			scale, withUnit = q.unitScale+6, true
 		default:
 			if q.explain != nil {
 				if why := q.explain(rest); why != "" {

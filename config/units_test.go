@@ -2,6 +2,7 @@ package config
 
 import (
 	"errors"
+	"fmt"
 	"math"
 	"math/rand/v2"
 	"strings"
@@ -184,6 +185,127 @@ func TestParseCapacitance(t *testing.T) {
 		{name: "mega is not for farads", in: "1M", wantErr: []string{`unknown unit "M"`}},
 		{name: "henry", in: "10 mH", wantErr: []string{`unknown unit "mH"`}},
 	})
+}
+
+func TestParseInductance(t *testing.T) {
+	// SI prefixes p, n, µ, m: SI Brochure, 9th ed., Table 7 — from memory.
+	// RKM codes: IEC 60062 (REFERENCES §9) — from memory. "u" for µ is
+	// common practice; SPICE reading M as milli is from memory.
+	runUnitCases(t, ParseInductance, "inductance", []unitCase{
+		{name: "milli", in: "10m", want: 10e-3},
+		{name: "milli with unit", in: "10mH", want: 10e-3},
+		{name: "milli spaced unit", in: "10 mH", want: 10e-3},
+		{name: "lower-case unit", in: "10mh", want: 10e-3},
+		{name: "micro", in: "4.7uH", want: 4.7e-6},
+		{name: "micro sign", in: "4.7 µH", want: 4.7e-6},
+		{name: "upper-case U", in: "22UH", want: 22e-6},
+		{name: "nano", in: "100n", want: 100e-9},
+		{name: "pico", in: "100p", want: 100e-12},
+		{name: "RKM 4m7", in: "4m7", want: 4.7e-3},
+		{name: "RKM 2u2", in: "2u2", want: 2.2e-6},
+		{name: "RKM 4n7 with unit", in: "4n7H", want: 4.7e-9},
+		{name: "bare henries", in: "1.5", want: 1.5},
+		{name: "henries", in: "2 H", want: 2},
+		{name: "exponent", in: "1e-3", want: 1e-3},
+
+		{name: "mega", in: "1M", wantErr: []string{`"M"`, "mega", "milli"}},
+		{name: "megahenry", in: "10MH", wantErr: []string{`"MH"`, "mega", "milli"}},
+		{name: "SPICE meg", in: "1meg", wantErr: []string{`unknown unit "meg"`}},
+		{name: "farads", in: "10nF", wantErr: []string{`unknown unit "nF"`, "4m7"}},
+		{name: "RKM R is not for henries", in: "4R7", wantErr: []string{`unknown unit "R7"`}},
+		{name: "empty", in: "", wantErr: []string{"empty"}},
+	})
+}
+
+func TestParseGain(t *testing.T) {
+	// SI prefixes: SI Brochure, 9th ed., Table 7 — from memory. SPICE's
+	// "meg" = 10^6 and its reading of M as milli: ngspice manual §2.3.5
+	// (scale factors) — from memory. 20 dB = ×10 is 20·log10(10), common
+	// practice.
+	runUnitCases(t, ParseGain, "gain", []unitCase{
+		{name: "integer", in: "2", want: 2},
+		{name: "negative", in: "-1", want: -1},
+		{name: "unicode minus", in: "\u22123.3", want: -3.3},
+		{name: "fraction", in: "0.5", want: 0.5},
+		{name: "zero", in: "0", want: 0},
+		{name: "exponent", in: "1e6", want: 1e6},
+		{name: "kilo", in: "100k", want: 100e3},
+		{name: "capital K", in: "100K", want: 100e3},
+		{name: "SI mega", in: "1M", want: 1e6},
+		{name: "SPICE meg", in: "1meg", want: 1e6},
+		{name: "SPICE MEG", in: "2.5MEG", want: 2.5e6},
+		{name: "SPICE Meg spaced", in: "1 Meg", want: 1e6},
+		{name: "milli", in: "2.5m", want: 2.5e-3},
+		{name: "micro sign", in: "10µ", want: 10e-6},
+		{name: "giga", in: "1G", want: 1e9},
+
+		{name: "decibels", in: "20 dB", wantErr: []string{`"dB"`, "ratio", "10"}},
+		{name: "volts per volt", in: "2 V/V", wantErr: []string{`unknown unit "V/V"`, "1meg"}},
+		{name: "RKM is not for gains", in: "4k7", wantErr: []string{`unknown unit "k7"`}},
+		{name: "meg then junk", in: "1megx", wantErr: []string{`unknown unit "megx"`}},
+		{name: "two prefixes", in: "1kk", wantErr: []string{`unknown unit "kk"`}},
+		{name: "empty", in: " ", wantErr: []string{"empty"}},
+		{name: "NaN", in: "NaN", wantErr: []string{"no number"}},
+	})
+}
+
+// TestMegOnlyForGain checks that SPICE's "meg" stays an error for the
+// quantities that did not accept it before ParseGain existed.
+func TestMegOnlyForGain(t *testing.T) {
+	for name, parse := range map[string]func(string) (float64, error){
+		"frequency": ParseFrequency, "resistance": ParseResistance, "capacitance": ParseCapacitance,
+	} {
+		if v, err := parse("1meg"); err == nil {
+			t.Errorf("%s: parse(\"1meg\") = %v, want an error", name, v)
+		}
+	}
+}
+
+func FuzzParseInductance(f *testing.F) {
+	for _, s := range []string{"10m", "10 mH", "4m7", "2u2", "4.7 µH", "1M", "10MH", "1meg", "100n", "4R7"} {
+		f.Add(s)
+	}
+	f.Fuzz(func(t *testing.T, s string) {
+		fuzzQuantity(t, s, "inductance", ParseInductance, func(v float64) string { return num(v) + " H" })
+	})
+}
+
+func FuzzParseGain(f *testing.F) {
+	for _, s := range []string{"2", "-1", "0.5", "1meg", "1MEG", "100k", "1M", "20 dB", "1e6", "2.5m"} {
+		f.Add(s)
+	}
+	f.Fuzz(func(t *testing.T, s string) {
+		fuzzQuantity(t, s, "gain", ParseGain, func(v float64) string { return num(v) })
+	})
+}
+
+func ExampleParseGain() {
+	for _, s := range []string{"2", "-0.5", "100k", "1meg", "1M", "2.5m"} {
+		g, _ := ParseGain(s)
+		fmt.Println(s, "=", g)
+	}
+	// Output:
+	// 2 = 2
+	// -0.5 = -0.5
+	// 100k = 100000
+	// 1meg = 1e+06
+	// 1M = 1e+06
+	// 2.5m = 0.0025
+}
+
+func ExampleParseInductance() {
+	for _, s := range []string{"10mH", "4m7", "2u2", "100 nH"} {
+		h, _ := ParseInductance(s)
+		fmt.Println(s, "=", h, "H")
+	}
+	_, err := ParseInductance("10MH")
+	fmt.Println(err != nil)
+	// Output:
+	// 10mH = 0.01 H
+	// 4m7 = 0.0047 H
+	// 2u2 = 2.2e-06 H
+	// 100 nH = 1e-07 H
+	// true
 }
 
 func TestParseMillis(t *testing.T) {
