@@ -3,6 +3,7 @@ module tonetrace
 go 1.26
 
 require (
+	github.com/gen2brain/malgo v0.11.24
 	github.com/pelletier/go-toml/v2 v2.4.3
 	github.com/spf13/cobra v1.10.2
 	github.com/spf13/pflag v1.0.9
