@@ -12,6 +12,7 @@ package main
 
 import (
 	"context"
+	"encoding/json"
 	"errors"
 	"fmt"
 	"io"
@@ -30,6 +31,7 @@ import (
 	"github.com/spf13/cobra"
 	"github.com/spf13/pflag"
 
+	"tonetrace/audio/device"
 	"tonetrace/audio/wavfile"
 	"tonetrace/config"
 	"tonetrace/dsp/extract"
@@ -141,7 +143,7 @@ reference). The ratio of the two inputs is the network's response.`,
 		return usageError{fmt.Errorf("%s: %w; see '%s --help'", c.Name(), err, c.CommandPath())}
 	})
 	root.PersistentFlags().StringVar(&a.configPath, "config", "", "settings file (default: the user's config directory, tonetrace/config.toml)")
-	root.AddCommand(a.analyzeCommand(), a.stimulusCommand(), a.predictCommand(), a.fitCommand(), a.plotCommand(), a.configCommand(), a.versionCommand())
+	root.AddCommand(a.analyzeCommand(), a.stimulusCommand(), a.predictCommand(), a.fitCommand(), a.plotCommand(), a.devicesCommand(), a.configCommand(), a.versionCommand())
 	return root
 }
 
@@ -924,4 +926,74 @@ func formatPart(k netlist.Kind, v float64, digits int) string {
 	e = max(-5, min(3, e))
 	prefix := strings.TrimSpace(string([]rune(prefixes)[e+5]))
 	return strconv.FormatFloat(v/math.Pow(1000, float64(e)), 'g', digits, 64) + " " + prefix + unit
+}
+
+// ---- devices ----------------------------------------------------------------
+
+func (a *app) devicesCommand() *cobra.Command {
+	var (
+		backend string
+		asJSON  bool
+	)
+	cmd := &cobra.Command{
+		Use:   "devices",
+		Short: "list playback and capture devices",
+		Long: `devices lists the sound system's playback and capture devices: index,
+backend, name, description, channel count and native rate. Choose a device
+by its name (stored in settings as audio.device, audio.playback or
+audio.capture) or by its index.`,
+		Example: `  tonetrace devices
+  tonetrace devices --backend pulseaudio --json`,
+		Args: exactArgs(0, "tonetrace devices takes no arguments"),
+		RunE: func(cmd *cobra.Command, _ []string) error {
+			list, err := device.List(backend)
+			if err != nil {
+				return usagef("cannot list devices of backend %q: %v; try another --backend (pulseaudio, alsa, jack, null)", backend, err)
+			}
+			if asJSON {
+				type jsonDevice struct {
+					Index       int    `json:"index"`
+					Kind        string `json:"kind"`
+					Backend     string `json:"backend"`
+					Name        string `json:"name"`
+					Description string `json:"description"`
+					Default     bool   `json:"default"`
+					Channels    int    `json:"channels"`
+					Rate        int    `json:"rate"`
+				}
+				out := make([]jsonDevice, len(list))
+				for i, d := range list {
+					out[i] = jsonDevice{d.Index, d.Kind, d.Backend, d.Name, d.Description, d.Default, d.Channels, d.Rate}
+				}
+				enc := json.NewEncoder(a.stdout)
+				enc.SetIndent("", "  ")
+				return enc.Encode(out)
+			}
+			if len(list) == 0 {
+				fmt.Fprintf(a.stderr, "%s: devices: no devices found; check that the sound system runs, or try --backend\n", programName)
+				return nil
+			}
+			fmt.Fprintf(a.stdout, "%-8s %3s %-11s %-32s %-32s %4s %7s\n", "kind", "#", "backend", "name", "description", "ch", "rate")
+			for _, d := range list {
+				mark := ""
+				if d.Default {
+					mark = " (default)"
+				}
+				fmt.Fprintf(a.stdout, "%-8s %3d %-11s %-32s %-32s %4d %7d%s\n", d.Kind, d.Index, d.Backend, clip(d.Name, 32), clip(d.Description, 32), d.Channels, d.Rate, mark)
+			}
+			return nil
+		},
+	}
+	cmd.Flags().StringVar(&backend, "backend", "", "sound system: pulseaudio, alsa, jack, null (default: the first that answers)")
+	cmd.Flags().BoolVar(&asJSON, "json", false, "print the list as JSON")
+	return cmd
+}
+
+// clip shortens s to at most n runes, marking the cut with an ellipsis.
+func clip(s string, n int) string {
+	r := []rune(s)
+	if len(r) <= n {
+		return s
+	}
+	return string(r[:n-1]) + "…"
 }

@@ -667,3 +667,30 @@ func TestFitRecoversParts(t *testing.T) {
 		}
 	}
 }
+
+// TestDevicesNull lists the null backend, which needs no sound server.
+func TestDevicesNull(t *testing.T) {
+	code, stdout, stderr := runCLI(t, "devices", "--backend", "null", "--json")
+	if code != exitOK {
+		t.Fatalf("exit %d: %s", code, stderr)
+	}
+	var list []struct {
+		Kind, Backend, Name string
+	}
+	if err := json.Unmarshal([]byte(stdout), &list); err != nil {
+		t.Fatalf("devices --json printed %q: %v", stdout, err)
+	}
+	kinds := map[string]bool{}
+	for _, d := range list {
+		kinds[d.Kind] = true
+		if d.Backend != "null" {
+			t.Errorf("device %+v not of the null backend", d)
+		}
+	}
+	if !kinds["playback"] || !kinds["capture"] {
+		t.Errorf("want a playback and a capture device, got %+v", list)
+	}
+	if code, _, _ := runCLI(t, "devices", "--backend", "nonsense"); code != exitUsage {
+		t.Errorf("unknown backend: exit %d, want 2", code)
+	}
+}
