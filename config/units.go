@@ -343,16 +343,17 @@ func (q *quantity) isUnit(u string) bool {
 	return false
 }
 
-// siPrefix is one SI prefix used when formatting.
-type siPrefix struct {
-	exp    int
-	symbol string
+// Prefix is one SI prefix for [SplitSI]: the power of ten it stands for
+// and how it is written.
+type Prefix struct {
+	Exp    int
+	Symbol string
 }
 
 var (
-	frequencyPrefixes   = []siPrefix{{0, ""}, {3, "k"}, {6, "M"}}
-	resistancePrefixes  = []siPrefix{{-3, "m"}, {0, ""}, {3, "k"}, {6, "M"}, {9, "G"}, {12, "T"}}
-	capacitancePrefixes = []siPrefix{{-12, "p"}, {-9, "n"}, {-6, "µ"}, {-3, "m"}, {0, ""}}
+	frequencyPrefixes   = []Prefix{{0, ""}, {3, "k"}, {6, "M"}}
+	resistancePrefixes  = []Prefix{{-3, "m"}, {0, ""}, {3, "k"}, {6, "M"}, {9, "G"}, {12, "T"}}
+	capacitancePrefixes = []Prefix{{-12, "p"}, {-9, "n"}, {-6, "µ"}, {-3, "m"}, {0, ""}}
 )
 
 // FormatFrequency writes hz with the largest fitting prefix: 20 → "20 Hz",
@@ -370,13 +371,21 @@ func FormatResistance(ohms float64) string { return formatSI(ohms, "Ω", resista
 // [ParseCapacitance] (for finite farads).
 func FormatCapacitance(farads float64) string { return formatSI(farads, "F", capacitancePrefixes) }
 
-// formatSI writes v with the largest prefix not exceeding its magnitude.
-// The decimal point is moved in the shortest round-trip digits of v, so the
-// text denotes exactly the same decimal number and parses back to v.
-func formatSI(v float64, unit string, prefixes []siPrefix) string {
+// formatSI writes v, a space, the prefix and the unit.
+func formatSI(v float64, unit string, prefixes []Prefix) string {
 	if v == 0 || math.IsNaN(v) || math.IsInf(v, 0) {
 		return strconv.FormatFloat(v, 'g', -1, 64) + " " + unit
 	}
+	num, symbol := SplitSI(v, prefixes)
+	return num + " " + symbol + unit
+}
+
+// SplitSI writes a finite, non-zero v as a number and the largest prefix of
+// prefixes (ascending by Exp) not exceeding its magnitude, the smallest
+// when none does. The decimal point is moved in the shortest round-trip
+// digits of v, so num followed by the prefix denotes exactly the same
+// decimal number and parses back to v: 4700 with k → "4.7", "k".
+func SplitSI(v float64, prefixes []Prefix) (num, symbol string) {
 	sign := ""
 	if v < 0 {
 		sign, v = "-", -v
@@ -387,12 +396,11 @@ func formatSI(v float64, unit string, prefixes []siPrefix) string {
 	exp, _ := strconv.Atoi(e[k+1:]) // v = d.ddd × 10^exp
 	p := prefixes[0]
 	for _, c := range prefixes {
-		if c.exp <= exp {
+		if c.Exp <= exp {
 			p = c
 		}
 	}
-	shift := exp - p.exp // number of digits before the point, minus one
-	var num string
+	shift := exp - p.Exp // number of digits before the point, minus one
 	switch {
 	case shift >= 0 && shift <= 5:
 		if len(digits) <= shift+1 {
@@ -409,5 +417,5 @@ func formatSI(v float64, unit string, prefixes []siPrefix) string {
 		}
 		num += "e" + strconv.Itoa(shift)
 	}
-	return sign + num + " " + p.symbol + unit
+	return sign + num, p.Symbol
 }

@@ -6,6 +6,7 @@ import (
 	"math"
 	"strconv"
 	"strings"
+	"tonetrace/config"
 	"unicode"
 	"unicode/utf8"
 )
@@ -108,15 +109,9 @@ func validField(s string) bool {
 	return s != "" && !strings.ContainsRune(s, ';') && strings.IndexFunc(s, unicode.IsSpace) < 0
 }
 
-// prefix is one SI prefix used when writing values.
-type prefix struct {
-	exp    int
-	symbol string
-}
-
 var (
-	bigPrefixes   = []prefix{{0, ""}, {3, "k"}, {6, "meg"}, {9, "G"}}
-	smallPrefixes = []prefix{{-12, "p"}, {-9, "n"}, {-6, "u"}, {-3, "m"}, {0, ""}}
+	bigPrefixes   = []config.Prefix{{Exp: 0, Symbol: ""}, {Exp: 3, Symbol: "k"}, {Exp: 6, Symbol: "meg"}, {Exp: 9, Symbol: "G"}}
+	smallPrefixes = []config.Prefix{{Exp: -12, Symbol: "p"}, {Exp: -9, Symbol: "n"}, {Exp: -6, Symbol: "u"}, {Exp: -3, Symbol: "m"}, {Exp: 0, Symbol: ""}}
 )
 
 // FormatValue writes an element value as netlist text without unit or
@@ -134,37 +129,6 @@ func FormatValue(k Kind, v float64) string {
 	if v == 0 || math.IsNaN(v) || math.IsInf(v, 0) {
 		return strconv.FormatFloat(v, 'g', -1, 64)
 	}
-	sign := ""
-	if v < 0 {
-		sign, v = "-", -v
-	}
-	e := strconv.FormatFloat(v, 'e', -1, 64) // d.ddde±XX
-	i := strings.IndexByte(e, 'e')
-	digits := strings.Replace(e[:i], ".", "", 1)
-	exp, _ := strconv.Atoi(e[i+1:])
-	p := prefixes[0]
-	for _, c := range prefixes {
-		if c.exp <= exp {
-			p = c
-		}
-	}
-	shift := exp - p.exp // digits before the point, minus one
-	var num string
-	switch {
-	case shift >= 0 && shift <= 5:
-		if len(digits) <= shift+1 {
-			num = digits + strings.Repeat("0", shift+1-len(digits))
-		} else {
-			num = digits[:shift+1] + "." + digits[shift+1:]
-		}
-	case shift < 0 && shift >= -3:
-		num = "0." + strings.Repeat("0", -shift-1) + digits
-	default:
-		num = digits[:1]
-		if len(digits) > 1 {
-			num += "." + digits[1:]
-		}
-		num += "e" + strconv.Itoa(shift)
-	}
-	return sign + num + p.symbol
+	num, symbol := config.SplitSI(v, prefixes)
+	return num + symbol
 }
