@@ -43,6 +43,7 @@ import (
 	"tonetrace/dsp/spectral"
 	"tonetrace/dsp/stimulus"
 	"tonetrace/dsp/trace"
+	"tonetrace/tui/picture"
 	"tonetrace/tui/plot"
 )
 
@@ -608,7 +609,7 @@ func (a *app) configCommand() *cobra.Command {
 // ---- plot -------------------------------------------------------------------
 
 func (a *app) plotCommand() *cobra.Command {
-	var from, to string
+	var from, to, out string
 	cmd := &cobra.Command{
 		Use:   "plot TRACE.csv [TRACE.csv ...]",
 		Short: "draw saved traces as a text Bode plot (gain above phase) on stdout",
@@ -616,7 +617,8 @@ func (a *app) plotCommand() *cobra.Command {
 characters, gain above phase on one logarithmic frequency axis: a quick look
 over SSH, in a log, or in a report pasted as text. Up to four traces.`,
 		Example: `  tonetrace plot bench.csv
-  tonetrace plot before.csv after.csv --size 120x36 --from 20 --to 20k`,
+  tonetrace plot before.csv after.csv --size 120x36 --from 20 --to 20k
+  tonetrace plot before.csv after.csv -o compare.svg`,
 		Args: func(cmd *cobra.Command, args []string) error {
 			if len(args) < 1 || len(args) > 4 {
 				return usagef("plot: give one to four trace files, e.g. tonetrace plot bench.csv")
@@ -653,10 +655,25 @@ over SSH, in a log, or in a report pasted as text. Up to four traces.`,
 			if !(f0 > 0 && f1 > f0) {
 				return usagef("plot range %g to %g Hz is empty; give --from below --to, both above 0", f0, f1)
 			}
+			if out != "" {
+				if err := checkWritable(out); err != nil {
+					return err
+				}
+				series := make([]picture.Series, len(traces))
+				for i, nt := range traces {
+					series[i] = picture.Series{Name: nt.name, Trace: nt.t, Dashed: i > 0}
+				}
+				if err := picture.WriteFile(out, picture.Options{From: f0, To: f1}, series...); err != nil {
+					return usageError{err}
+				}
+				fmt.Fprintf(a.stderr, "%s: plot: wrote %s\n", programName, out)
+				return nil
+			}
 			return a.drawBode(f0, f1, traces...)
 		},
 	}
 	f := cmd.Flags()
+	f.StringVarP(&out, "output", "o", "", "write a picture instead (.svg or .png) rather than drawing on stdout")
 	f.StringVar(&from, "from", "", "lowest frequency drawn, Hz (default: the traces' lowest)")
 	f.StringVar(&to, "to", "", "highest frequency drawn, Hz (default: the traces' highest)")
 	a.plotFlags(f)

@@ -694,3 +694,31 @@ func TestDevicesNull(t *testing.T) {
 		t.Errorf("unknown backend: exit %d, want 2", code)
 	}
 }
+
+// TestPlotPicture writes the example's response as SVG and PNG pictures.
+func TestPlotPicture(t *testing.T) {
+	dir := t.TempDir()
+	csv := filepath.Join(dir, "ex.csv")
+	if code, _, stderr := runCLI(t, "analyze", exampleFile, "-o", csv, "--ppd", "24"); code != exitOK {
+		t.Fatalf("analyze: %s", stderr)
+	}
+	for _, name := range []string{"ex.svg", "ex.png"} {
+		out := filepath.Join(dir, name)
+		if code, _, stderr := runCLI(t, "plot", csv, "-o", out); code != exitOK {
+			t.Fatalf("plot -o %s: %s", name, stderr)
+		}
+		b, err := os.ReadFile(out)
+		if err != nil || len(b) < 1000 {
+			t.Fatalf("%s: %d bytes, %v", name, len(b), err)
+		}
+		if strings.HasSuffix(name, ".png") && !bytes.HasPrefix(b, []byte("\x89PNG")) {
+			t.Errorf("%s is not a PNG", name)
+		}
+		if strings.HasSuffix(name, ".svg") && !bytes.Contains(b, []byte("<svg")) {
+			t.Errorf("%s is not an SVG", name)
+		}
+	}
+	if code, _, _ := runCLI(t, "plot", csv, "-o", filepath.Join(dir, "ex.jpg")); code != exitUsage {
+		t.Errorf("plot -o .jpg: exit %d, want 2", code)
+	}
+}
