@@ -28,12 +28,16 @@ import (
 	"strings"
 	"time"
 
+	"github.com/charmbracelet/x/term"
 	"github.com/spf13/cobra"
 	"github.com/spf13/pflag"
 
+	"tonetrace/audio"
+	"tonetrace/audio/bench"
 	"tonetrace/audio/device"
 	"tonetrace/audio/wavfile"
 	"tonetrace/config"
+	"tonetrace/dsp/engine"
 	"tonetrace/dsp/extract"
 	"tonetrace/dsp/fit"
 	"tonetrace/dsp/mna"
@@ -144,7 +148,7 @@ reference). The ratio of the two inputs is the network's response.`,
 		return usageError{fmt.Errorf("%s: %w; see '%s --help'", c.Name(), err, c.CommandPath())}
 	})
 	root.PersistentFlags().StringVar(&a.configPath, "config", "", "settings file (default: the user's config directory, tonetrace/config.toml)")
-	root.AddCommand(a.analyzeCommand(), a.stimulusCommand(), a.predictCommand(), a.fitCommand(), a.plotCommand(), a.devicesCommand(), a.configCommand(), a.versionCommand())
+	root.AddCommand(a.analyzeCommand(), a.stimulusCommand(), a.predictCommand(), a.fitCommand(), a.plotCommand(), a.sweepCommand(), a.devicesCommand(), a.configCommand(), a.versionCommand())
 	return root
 }
 
@@ -1014,3 +1018,291 @@ func clip(s string, n int) string {
 	}
 	return string(r[:n-1]) + "…"
 }
+
+// ---- sweep ------------------------------------------------------------------
+
+// simOptions choose the virtual bench instead of a device.
+type simOptions struct {
+	on     bool
+	net    string
+	faults string
+	paced  bool
+}
+
+func addSimFlags(f *pflag.FlagSet, sim *simOptions) {
+	f.BoolVar(&sim.on, "sim", false, "measure the virtual bench (a simulated interface and network) instead of a device")
+	f.StringVar(&sim.net, "sim-net", "", "netlist of the simulated network (default: a built-in presence peak)")
+	f.StringVar(&sim.faults, "sim-fault", "", "wiring faults to simulate, comma-separated: "+bench.FormatFaults(bench.AllFaults()))
+}
+
+// deviceFlags bind the device choice and routing to settings.
+var deviceFlags = map[string]string{
+	"device":   "audio.device",
+	"playback": "audio.playback",
+	"capture":  "audio.capture",
+	"backend":  "audio.backend",
+	"rate":     "audio.rate",
+	"ref":      "audio.ref_input",
+	"dut":      "audio.dut_input",
+	"level":    "output.level_dbfs",
+}
+
+func addDeviceFlags(f *pflag.FlagSet) {
+	f.String("device", "", "device for playback and capture (name or index from 'tonetrace devices')")
+	f.String("playback", "", "playback device, when it differs from --device")
+	f.String("capture", "", "capture device, when it differs from --device")
+	f.String("backend", "auto", "sound system: auto, pulseaudio, alsa, jack, null")
+	f.String("rate", "48k", "sample rate, Hz")
+	f.Int("ref", 2, "1-based input receiving the looped-back stimulus (the reference)")
+	f.Int("dut", 1, "1-based input behind the network (the response)")
+	f.String("level", "-20", "output level: peak dBFS of the stimulus, at most the cap (output.cap_dbfs)")
+}
+
+// openStream opens the virtual bench or the configured device. The bench is
+// returned too when it is the stream (for live component changes).
+func openStream(s *config.Settings, sim simOptions) (audio.Stream, *bench.Bench, error) {
+	routing := audio.Routing{Response: s.Audio.DUTInput, Reference: s.Audio.RefInput}
+	out := audio.DefaultOutputConfig()
+	out.LevelDBFS, out.CapDBFS, out.FadeMS = s.Output.LevelDBFS, s.Output.CapDBFS, max(1, s.Output.FadeMS)
+	if sim.on {
+		cfg := bench.Config{
+			Rate: s.Audio.Rate, PeriodMS: int(s.Audio.PeriodMS), Paced: sim.paced,
+			Fixture: fixture(s), Routing: routing, Output: out, Seed: 1,
+		}
+		if sim.net != "" {
+			n, err := netlist.ParseFile(sim.net)
+			if err != nil {
+				return nil, nil, usageError{err}
+			}
+			cfg.Netlist = n
+		}
+		if sim.faults != "" {
+			f, err := bench.ParseFaults(sim.faults)
+			if err != nil {
+				return nil, nil, usageError{err}
+			}
+			cfg.Faults = f
+		}
+		b, err := bench.Open(cfg)
+		if err != nil {
+			return nil, nil, usageError{err}
+		}
+		return b, b, nil
+	}
+	if sim.net != "" || sim.faults != "" {
+		return nil, nil, usagef("--sim-net and --sim-fault need --sim")
+	}
+	cfg := device.DefaultConfig()
+	cfg.Backend = s.Audio.Backend
+	if cfg.Backend == config.BackendAuto {
+		cfg.Backend = ""
+	}
+	cfg.Device, cfg.Playback, cfg.Capture = s.Audio.Device, s.Audio.Playback, s.Audio.Capture
+	cfg.Rate, cfg.PeriodMS = s.Audio.Rate, int(s.Audio.PeriodMS)
+	cfg.InChannels = max(2, s.Audio.RefInput, s.Audio.DUTInput)
+	cfg.Routing, cfg.Output = routing, out
+	st, err := device.Open(cfg)
+	if err != nil {
+		return nil, nil, fmt.Errorf("%w; list devices with 'tonetrace devices', or try the virtual bench with --sim", err)
+	}
+	return st, nil, nil
+}
+
+func (a *app) sweepCommand() *cobra.Command {
+	var (
+		out string
+		sim simOptions
+	)
+	cmd := &cobra.Command{
+		Use:   "sweep -o OUT.csv",
+		Short: "measure a network's response with a stepped sine or a multitone, without the screen",
+		Long: `sweep measures the network wired between output 1 and input 1 against the
+loopback from output 2 to input 2, writes the response with its
+uncertainty, SNR and distortion per point, and reports wiring faults in
+plain words on stderr. --sim measures the virtual bench instead of a device.
+
+Exit status: 0 for a valid measurement; 3 when the measurement is invalid
+(a dead or clipping input, the device lost); 2 for bad usage. The measured
+points are written in every case.
+
+Caution: start at a low --level, mute monitors and take headphones off;
+never feed speaker-level or mains-referenced signals into the interface
+without an attenuator or isolation.`,
+		Example: `  tonetrace sweep --sim -o demo.csv
+  tonetrace sweep --device "USB Audio" -o filter.csv --from 20 --to 20k --ppd 12 --level -24
+  tonetrace sweep --sim --sim-fault hum,invert -o faults.csv`,
+		Args: exactArgs(0, "give the output with -o"),
+		RunE: func(cmd *cobra.Command, _ []string) error {
+			return a.sweep(cmd.Context(), cmd.Flags(), out, sim)
+		},
+	}
+	f := cmd.Flags()
+	f.StringVarP(&out, "output", "o", "", "trace file to write (CSV)")
+	f.String("from", "20", "lowest frequency, Hz")
+	f.String("to", "20k", "highest frequency, Hz")
+	f.Int("ppd", 10, "points per decade")
+	f.String("adaptive", "off", "adaptive plan: add points where the curve bends by more than this many dB")
+	f.String("method", "steps", "steps (stepped sine) or multitone")
+	addDeviceFlags(f)
+	addSimFlags(f, &sim)
+	return cmd
+}
+
+var sweepFlags = mergeFlags(deviceFlags, map[string]string{
+	"from":     "sweep.from_hz",
+	"to":       "sweep.to_hz",
+	"ppd":      "sweep.points_per_decade",
+	"adaptive": "sweep.adaptive_db",
+	"method":   "sweep.method",
+})
+
+func (a *app) sweep(ctx context.Context, fs *pflag.FlagSet, out string, sim simOptions) error {
+	if err := checkWritable(out); err != nil {
+		return err
+	}
+	s, err := a.settings(fs, sweepFlags)
+	if err != nil {
+		return err
+	}
+	if err := validate(s); err != nil {
+		return err
+	}
+	stream, _, err := openStream(s, sim)
+	if err != nil {
+		return err
+	}
+	defer stream.Close()
+
+	cfg := engine.Config{
+		From: s.Sweep.FromHz, To: s.Sweep.ToHz, PerDecade: s.Sweep.PointsPerDecade,
+		LevelDBFS: s.Output.LevelDBFS, MaxDuration: 10 * time.Minute,
+	}
+	if s.Sweep.Method == config.MethodMultitone {
+		cfg.Method = engine.Multitone
+	}
+	if s.Sweep.AdaptiveDB > 0 {
+		cfg.Adaptive = &plan.Adaptive{From: s.Sweep.FromHz, To: s.Sweep.ToHz, TolDB: s.Sweep.AdaptiveDB,
+			TolDeg: 10 * s.Sweep.AdaptiveDB, StartPerDecade: 2}
+	}
+	eng := engine.New(stream, cfg)
+	done := make(chan error, 1)
+	go func() { done <- eng.Run(ctx) }()
+	progress := newProgressPrinter(a.stderr)
+	var runErr error
+	for ev := range eng.Events() {
+		progress.event(ev)
+	}
+	runErr = <-done
+	progress.finish()
+
+	res := eng.Result()
+	t := res.Trace
+	if len(t.Points) == 0 {
+		if runErr != nil {
+			return fmt.Errorf("%w: %v; nothing was measured", errInvalidMeasurement, runErr)
+		}
+		return fmt.Errorf("%w: no point was measured", errInvalidMeasurement)
+	}
+	invalid := 0
+	var bad []string
+	for i, ok := range res.Valid {
+		if !ok {
+			invalid++
+			bad = append(bad, strconv.FormatFloat(t.Points[i].Freq, 'g', 6, 64))
+		}
+	}
+	if invalid > 0 {
+		t.SetMeta("invalid_points_hz", strings.Join(bad, " "))
+	}
+	if !res.Complete {
+		t.SetMeta("complete", "no: the run ended early")
+	}
+	if sim.on {
+		t.SetMeta("source", "virtual bench")
+		if sim.faults != "" {
+			t.SetMeta("simulated_faults", sim.faults)
+		}
+	}
+	a.stampMeta(&t)
+	if err := trace.SaveFile(out, &t, trace.ColGainU, trace.ColPhaseU, trace.ColSNR, trace.ColTHD); err != nil {
+		return err
+	}
+	fmt.Fprintf(a.stderr, "%s: sweep: wrote %s: %d points (%d invalid), latency %d frames, %.2f s of audio\n",
+		programName, out, len(t.Points), invalid, res.Latency, res.Timing.Seconds(res.Timing.AudioFrames))
+	for _, p := range res.Problems {
+		fmt.Fprintf(a.stderr, "%s: sweep: problem: %s\n", programName, p)
+	}
+	switch {
+	case runErr != nil:
+		return fmt.Errorf("%w: %v; the %d points measured before that are in %s", errInvalidMeasurement, runErr, len(t.Points), out)
+	case invalid > 0:
+		return fmt.Errorf("%w: %d of %d points are invalid (see the problems above); fix the wiring and measure again", errInvalidMeasurement, invalid, len(t.Points))
+	}
+	return nil
+}
+
+// progressPrinter shows a sweep's progress on stderr: a bar redrawn in
+// place on a terminal, plain lines every tenth otherwise, and each new
+// problem once.
+type progressPrinter struct {
+	w       io.Writer
+	tty     bool
+	lastTen int
+	seen    map[string]bool
+	drawn   bool
+}
+
+func newProgressPrinter(w io.Writer) *progressPrinter {
+	p := &progressPrinter{w: w, lastTen: -1, seen: map[string]bool{}}
+	if f, ok := w.(*os.File); ok {
+		p.tty = term.IsTerminal(f.Fd())
+	}
+	return p
+}
+
+func (p *progressPrinter) event(ev engine.Event) {
+	switch e := ev.(type) {
+	case engine.ProgressEvent:
+		if e.Total <= 0 {
+			return
+		}
+		frac := float64(e.Done) / float64(e.Total)
+		if p.tty {
+			const width = 30
+			n := int(frac * width)
+			fmt.Fprintf(p.w, "\r%s: sweep [%s%s] %3.0f%% %s ", programName, strings.Repeat("█", n), strings.Repeat("·", width-n), 100*frac, hzOrBlank(e.Freq))
+			p.drawn = true
+			return
+		}
+		if ten := int(frac * 10); ten != p.lastTen {
+			p.lastTen = ten
+			fmt.Fprintf(p.w, "%s: sweep: %d of %d points%s\n", programName, e.Done, e.Total, strings.TrimRight(" "+hzOrBlank(e.Freq), " "))
+		}
+	case engine.StatusEvent:
+		for _, pr := range e.Status.Problems {
+			key := pr.Code + "/" + strconv.Itoa(pr.Input)
+			if p.seen[key] {
+				continue
+			}
+			p.seen[key] = true
+			p.clearLine()
+			fmt.Fprintf(p.w, "%s: sweep: %s — %s\n", programName, pr.Message, pr.Fix)
+		}
+	}
+}
+
+func hzOrBlank(f float64) string {
+	if math.IsNaN(f) || f <= 0 {
+		return ""
+	}
+	return "at " + formatHz(f)
+}
+
+func (p *progressPrinter) clearLine() {
+	if p.tty && p.drawn {
+		fmt.Fprint(p.w, "\r\033[K")
+		p.drawn = false
+	}
+}
+
+func (p *progressPrinter) finish() { p.clearLine() }
