@@ -48,7 +48,8 @@ type Canvas struct {
 // 0–MaxHeight; at least 3 rows give a row of frequency labels at the
 // bottom, panels of at least 4 rows get a header row (title, unit,
 // series names). Rows are shared out evenly, the first panels getting
-// any extra; panels beyond the number of rows are left out.
+// any extra, except that panels with a Rows of their own get that many
+// (see [Panel]); panels beyond the number of rows are left out.
 //
 // Render panics when a series has a different number of frequencies and
 // values; every other input, however odd (NaN, ±Inf, a reversed range,
@@ -78,11 +79,35 @@ func (c *Canvas) Render(w, h int, opt Options, panels ...Panel) *Grid {
 		avail, labelRow = h-1, h-1
 	}
 	n := min(len(panels), avail)
-	top := 0
+	// Panels that ask for a height (Panel.Rows) get it when the others
+	// keep at least a row each; the others share the rest evenly.
+	asked, flex := 0, 0
 	for i := 0; i < n; i++ {
-		rows := avail / n
-		if i < avail%n {
-			rows++
+		if panels[i].Rows > 0 {
+			asked += panels[i].Rows
+		} else {
+			flex++
+		}
+	}
+	rest := avail - asked
+	useAsked := asked > 0 && flex > 0 && rest >= flex
+	top, fi := 0, 0
+	for i := 0; i < n; i++ {
+		var rows int
+		switch {
+		case !useAsked:
+			rows = avail / n
+			if i < avail%n {
+				rows++
+			}
+		case panels[i].Rows > 0:
+			rows = panels[i].Rows
+		default:
+			rows = rest / flex
+			if fi < rest%flex {
+				rows++
+			}
+			fi++
 		}
 		hdr := 0
 		if rows >= 4 && hasHeader(&panels[i]) {

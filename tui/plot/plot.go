@@ -101,6 +101,12 @@ type Panel struct {
 	// Series are drawn in order; where two share a cell the later one
 	// owns it (its Style wins).
 	Series []Series
+	// Rows, when positive, is the panel's height in rows, header
+	// included; panels with Rows 0 share the remaining rows evenly. When
+	// no panel has Rows 0, or the heights asked for leave fewer rows than
+	// there are such panels, every panel shares evenly as if none had
+	// asked. Default 0.
+	Rows int
 }
 
 // Options holds what panels share.

@@ -593,3 +593,39 @@ func TestRerenderNoAllocs(t *testing.T) {
 		t.Errorf("%g allocations per AppendText into a reused buffer, want 0", allocs)
 	}
 }
+
+// TestPanelRows checks the heights asked for with Panel.Rows and the
+// fallback to even sharing; the expected rows are counted by hand.
+func TestPanelRows(t *testing.T) {
+	p := func(rows int) Panel { return Panel{Title: "p", Y: Axis{Auto: true}, Rows: rows} }
+	cases := []struct {
+		name   string
+		h      int
+		panels []Panel
+		want   []int
+	}{
+		// 30 rows: 29 for panels after the label row.
+		{"none asked", 30, []Panel{p(0), p(0), p(0)}, []int{10, 10, 9}},
+		{"third asks 5", 30, []Panel{p(0), p(0), p(5)}, []int{12, 12, 5}},
+		{"first asks 4, odd rest", 30, []Panel{p(4), p(0), p(0)}, []int{4, 13, 12}},
+		{"all ask: even", 30, []Panel{p(5), p(5), p(5)}, []int{10, 10, 9}},
+		{"too much asked: even", 30, []Panel{p(0), p(0), p(28)}, []int{10, 10, 9}},
+		{"exactly one row each left", 30, []Panel{p(0), p(0), p(27)}, []int{1, 1, 27}},
+	}
+	for _, tc := range cases {
+		t.Run(tc.name, func(t *testing.T) {
+			var c Canvas
+			g := c.Render(60, tc.h, Options{}, tc.panels...)
+			if len(g.Panels) != len(tc.want) {
+				t.Fatalf("%d panels drawn, want %d", len(g.Panels), len(tc.want))
+			}
+			top := 0
+			for i, l := range g.Panels {
+				if l.Rows != tc.want[i] || l.Top != top {
+					t.Errorf("panel %d: top %d rows %d, want top %d rows %d", i, l.Top, l.Rows, top, tc.want[i])
+				}
+				top += l.Rows
+			}
+		})
+	}
+}
