@@ -51,10 +51,13 @@
 //     then captures anyway (the ring overruns, as on a real device, instead
 //     of stalling the stream);
 //   - it plays a period only when the engine has queued its stimulus; while
-//     a Write is under way it waits for it (so the Write's start,
-//     PlayIndex()+Lead(), is not overtaken), and when the engine has queued
-//     nothing it waits up to a millisecond before playing silence (an idle
-//     bench runs at about 20× real time).
+//     a Write is under way, or a stimulus has been written and not yet
+//     finished (Finish), it waits up to 100 ms of real time for more (so
+//     neither the Write's start, PlayIndex()+Lead(), nor the next samples of
+//     a running stimulus are overtaken by an engine busy computing); when
+//     the engine has queued nothing and no stimulus runs it waits up to a
+//     millisecond before playing silence (an idle bench runs at about 20×
+//     real time).
 //
 // Close stops the goroutine.
 //
@@ -186,6 +189,7 @@ type Bench struct {
 	chunk    int
 	queuedTo atomic.Int64 // the writer's WriteIndex after its last chunk
 	inWrite  atomic.Bool  // a Write or WriteAt is under way
+	running  atomic.Bool  // a stimulus is in progress: written to, not yet finished
 	writeSig chan struct{}
 
 	holeFrames, dropouts atomic.Int64
@@ -413,7 +417,10 @@ func (b *Bench) run() {
 			}
 			until := time.Now().Add(idleWait)
 			for b.queuedTo.Load() < r.outPos+int64(r.period) {
-				if b.inWrite.Load() {
+				// A Write under way, or a stimulus not yet finished, means
+				// more is coming: a real device would not outrun an engine
+				// that keeps up, so neither does the unpaced bench.
+				if b.inWrite.Load() || b.running.Load() {
 					until = time.Now().Add(writeWait)
 				}
 				d := time.Until(until)
@@ -503,6 +510,7 @@ func (b *Bench) WriteIndex() int64 { return b.core.WriteIndex() }
 
 // Finish marks the end of the stimulus queued so far; see audio.Stream.
 func (b *Bench) Finish() {
+	b.running.Store(false)
 	b.core.Finish()
 	signal(b.writeSig)
 }
@@ -540,6 +548,7 @@ func (b *Bench) Interface() Interface { return b.iface }
 // at a time, so an unpaced bench follows the writer closely.
 func (b *Bench) Write(ctx context.Context, src []float64) (n int, err error) {
 	b.inWrite.Store(true)
+	b.running.Store(true)
 	defer b.wrote(false)
 	if len(src) == 0 {
 		return b.core.Write(ctx, src)
@@ -559,6 +568,7 @@ func (b *Bench) Write(ctx context.Context, src []float64) (n int, err error) {
 // not be before WriteIndex(). See audio.Stream.
 func (b *Bench) WriteAt(ctx context.Context, at int64, src []float64) (n int, err error) {
 	b.inWrite.Store(true)
+	b.running.Store(true)
 	n, err = b.core.WriteAt(ctx, at, src[:min(len(src), b.chunk)])
 	if err != nil || n == len(src) {
 		b.wrote(false)
