@@ -15,6 +15,7 @@ import (
 	"strings"
 	"testing"
 
+	"tonetrace/audio/bench"
 	"tonetrace/audio/wavfile"
 	"tonetrace/dsp/extract"
 	"tonetrace/dsp/stimulus"
@@ -721,4 +722,132 @@ func TestPlotPicture(t *testing.T) {
 	if code, _, _ := runCLI(t, "plot", csv, "-o", filepath.Join(dir, "ex.jpg")); code != exitUsage {
 		t.Errorf("plot -o .jpg: exit %d, want 2", code)
 	}
+}
+
+// TestSweepSim measures the virtual bench's default network with the
+// stepped sine and the multitone and compares with what the bench's own
+// circuit model says a dual-channel measurement must read (MNA prediction
+// with the fixture, over the loaded loopback; the MNA solver is checked
+// against ngspice in dsp/mna). Tolerance from the issue: 0.05 dB, 0.5°.
+func TestSweepSim(t *testing.T) {
+	b, err := bench.Open(bench.Config{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer b.Close()
+	for _, method := range []string{"steps", "multitone"} {
+		t.Run(method, func(t *testing.T) {
+			out := filepath.Join(t.TempDir(), "sweep.csv")
+			code, _, stderr := runCLI(t, "sweep", "--sim", "-o", out, "--method", method)
+			if code != exitOK {
+				t.Fatalf("exit %d: %s", code, stderr)
+			}
+			if strings.Contains(stderr, "problem:") {
+				t.Errorf("a clean bench reported problems:\n%s", stderr)
+			}
+			tr, err := trace.LoadFile(out)
+			if err != nil {
+				t.Fatal(err)
+			}
+			freqs := make([]float64, len(tr.Points))
+			for i, p := range tr.Points {
+				freqs[i] = p.Freq
+			}
+			want, err := b.Expected(freqs)
+			if err != nil {
+				t.Fatal(err)
+			}
+			var worstDB, worstDeg float64
+			for i, p := range tr.Points {
+				w := want.Points[i]
+				worstDB = max(worstDB, math.Abs(p.GainDB()-w.GainDB()))
+				worstDeg = max(worstDeg, math.Abs(trace.WrapDeg(p.PhaseDeg()-w.PhaseDeg())))
+			}
+			if worstDB > 0.05 || worstDeg > 0.5 {
+				t.Errorf("worst deviation from the circuit model %.4f dB, %.3f°; allowed 0.05 dB, 0.5°", worstDB, worstDeg)
+			}
+			t.Logf("%d points, worst %.4f dB, %.3f°", len(tr.Points), worstDB, worstDeg)
+			if v, _ := tr.MetaValue("source"); v != "virtual bench" {
+				t.Errorf("metadata does not name the virtual bench: %v", tr.Meta)
+			}
+		})
+	}
+}
+
+// TestSweepSimFaults injects every fault of the virtual bench and checks
+// that the monitors name it, that the exit status says whether the
+// measurement can be trusted, and that every measured point is written.
+func TestSweepSimFaults(t *testing.T) {
+	cases := []struct {
+		fault     string
+		code      int
+		minPoints int
+	}{
+		{"swap", exitOK, 32},
+		{"dead-ref", exitInvalid, 32},
+		{"dead-dut", exitInvalid, 32},
+		{"clip", exitInvalid, 32},
+		{"hum", exitOK, 32},
+		{"invert", exitOK, 32},
+		{"dropout", exitOK, 32},
+		{"drift", exitOK, 32},
+		{"unplug", exitInvalid, 1},
+	}
+	for _, c := range cases {
+		t.Run(c.fault, func(t *testing.T) {
+			out := filepath.Join(t.TempDir(), "sweep.csv")
+			code, _, stderr := runCLI(t, "sweep", "--sim", "--sim-fault", c.fault, "-o", out)
+			if code != c.code {
+				t.Errorf("exit %d, want %d; stderr:\n%s", code, c.code, stderr)
+			}
+			if !strings.Contains(stderr, "problem: "+c.fault+":") {
+				t.Errorf("the monitors did not name %q:\n%s", c.fault, stderr)
+			}
+			tr, err := trace.LoadFile(out)
+			if err != nil {
+				t.Fatalf("measured points not written: %v", err)
+			}
+			if len(tr.Points) < c.minPoints {
+				t.Errorf("%d points written, want at least %d", len(tr.Points), c.minPoints)
+			}
+		})
+	}
+}
+
+// TestSweepRig measures through the PulseAudio rig of ../shared/AUDIO.md
+// (started by .ci/run): output 1 passes ladspa-sdk's one-pole "lpf" at
+// 1 kHz, output 2 loops straight back. The measured response must match
+// the plugin's digital one-pole H = (1−p)/(1−p·e^{−jω}), with its pole
+// p = c − √(c²−1), c = 2 − cos(2π·1000/48000) as ladspa-sdk's filter.c
+// computes it, within 0.05 dB and 0.5° from 50 Hz to 15 kHz.
+func TestSweepRig(t *testing.T) {
+	if os.Getenv("TONETRACE_PULSE_RIG") != "1" {
+		if os.Getenv("TONETRACE_REQUIRE_TOOLS") == "1" {
+			t.Fatal("the PulseAudio rig is required (TONETRACE_REQUIRE_TOOLS=1); start it with: eval \"$(bash .ci/pulse-rig.sh start)\"")
+		}
+		t.Skip("PulseAudio rig not running")
+	}
+	out := filepath.Join(t.TempDir(), "rig.csv")
+	code, _, stderr := runCLI(t, "sweep", "--backend", "pulseaudio", "--playback", "out", "--capture", "cap.monitor",
+		"--from", "50", "--to", "15k", "--ppd", "8", "--level", "-12", "-o", out)
+	if code != exitOK {
+		t.Fatalf("exit %d: %s", code, stderr)
+	}
+	tr, err := trace.LoadFile(out)
+	if err != nil {
+		t.Fatal(err)
+	}
+	c := 2 - math.Cos(2*math.Pi*1000/48000)
+	p := c - math.Sqrt(c*c-1)
+	var worstDB, worstDeg float64
+	for _, pt := range tr.Points {
+		w := 2 * math.Pi * pt.Freq / 48000
+		want := complex(1-p, 0) / (1 - complex(p, 0)*cmplx.Exp(complex(0, -w)))
+		worstDB = max(worstDB, math.Abs(pt.GainDB()-20*math.Log10(cmplx.Abs(want))))
+		worstDeg = max(worstDeg, math.Abs(trace.WrapDeg(pt.PhaseDeg()-cmplx.Phase(want)*180/math.Pi)))
+	}
+	if worstDB > 0.05 || worstDeg > 0.5 {
+		t.Errorf("worst deviation from the LADSPA one-pole %.4f dB, %.3f° over %d points; allowed 0.05 dB, 0.5°", worstDB, worstDeg, len(tr.Points))
+	}
+	t.Logf("%d points, worst %.4f dB, %.3f°", len(tr.Points), worstDB, worstDeg)
 }
