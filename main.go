@@ -17,6 +17,7 @@ import (
 	"fmt"
 	"io"
 	iofs "io/fs"
+	"log/slog"
 	"math"
 	"os"
 	"os/signal"
@@ -26,8 +27,10 @@ import (
 	"sort"
 	"strconv"
 	"strings"
+	"sync"
 	"time"
 
+	tea "github.com/charmbracelet/bubbletea"
 	"github.com/charmbracelet/x/term"
 	"github.com/spf13/cobra"
 	"github.com/spf13/pflag"
@@ -47,6 +50,7 @@ import (
 	"tonetrace/dsp/spectral"
 	"tonetrace/dsp/stimulus"
 	"tonetrace/dsp/trace"
+	"tonetrace/tui"
 	"tonetrace/tui/picture"
 	"tonetrace/tui/plot"
 )
@@ -128,6 +132,9 @@ type app struct {
 	args           []string
 	configPath     string
 	plot           bool // analyze --plot
+	rootSim        simOptions
+	model          string // --model netlist for the live screen
+	noColor        bool
 	plotSize       string
 	plotASCII      bool
 }
@@ -143,12 +150,17 @@ reference). The ratio of the two inputs is the network's response.`,
 		SilenceErrors: true,
 		SilenceUsage:  true,
 		Version:       programVersion(),
+		Args:          exactArgs(0, "run 'tonetrace --help' for the commands"),
+		RunE: func(cmd *cobra.Command, _ []string) error {
+			return a.live(cmd.Context(), cmd.Flags(), a.rootSim)
+		},
 	}
+	a.liveFlags(root.Flags(), &a.rootSim)
 	root.SetFlagErrorFunc(func(c *cobra.Command, err error) error {
 		return usageError{fmt.Errorf("%s: %w; see '%s --help'", c.Name(), err, c.CommandPath())}
 	})
 	root.PersistentFlags().StringVar(&a.configPath, "config", "", "settings file (default: the user's config directory, tonetrace/config.toml)")
-	root.AddCommand(a.analyzeCommand(), a.stimulusCommand(), a.predictCommand(), a.fitCommand(), a.plotCommand(), a.sweepCommand(), a.devicesCommand(), a.configCommand(), a.versionCommand())
+	root.AddCommand(a.analyzeCommand(), a.stimulusCommand(), a.predictCommand(), a.fitCommand(), a.plotCommand(), a.sweepCommand(), a.demoCommand(), a.devicesCommand(), a.configCommand(), a.versionCommand())
 	return root
 }
 
@@ -1306,3 +1318,436 @@ func (p *progressPrinter) clearLine() {
 }
 
 func (p *progressPrinter) finish() { p.clearLine() }
+
+// ---- the live screen --------------------------------------------------------
+
+func (a *app) liveFlags(f *pflag.FlagSet, sim *simOptions) {
+	f.String("from", "20", "lowest frequency, Hz")
+	f.String("to", "20k", "highest frequency, Hz")
+	f.Int("ppd", 10, "points per decade of the stepped sweep")
+	f.String("mode", "stepped", "way of measuring at the start: stepped, multitone, tone, any")
+	f.StringVar(&a.model, "model", "", "netlist whose prediction (with the fixture) is drawn over the measurement")
+	f.BoolVar(&a.noColor, "no-color", false, "draw without colour (also when NO_COLOR is set)")
+	f.String("source-r", "100", "output resistance of the driving output, ohms (for --model and the bench)")
+	f.String("load-r", "20k", "input resistance of the measuring input, ohms")
+	f.String("load-c", "100p", "capacitance across the measuring input, farads")
+	addDeviceFlags(f)
+	addSimFlags(f, sim)
+}
+
+var liveFlagKeys = mergeFlags(deviceFlags, fixtureFlags, map[string]string{
+	"from": "sweep.from_hz",
+	"to":   "sweep.to_hz",
+	"ppd":  "sweep.points_per_decade",
+})
+
+func (a *app) demoCommand() *cobra.Command {
+	var sim simOptions
+	cmd := &cobra.Command{
+		Use:   "demo",
+		Short: "the live screen on the virtual bench: a simulated interface and network",
+		Long: `demo opens the live screen on the virtual bench: a simulated audio
+interface with a network of our own between output 1 and input 1 and a
+loopback to input 2. Nothing is played on a real device. Tab picks a
+component and [ ] step it through its preferred values while the response
+forms; --sim-fault shows how wiring faults look.`,
+		Example: `  tonetrace demo
+  tonetrace demo --sim-net testdata/networks/hum-notch.cir --mode multitone
+  tonetrace demo --sim-fault hum,invert`,
+		Args: exactArgs(0, "tonetrace demo takes no arguments"),
+		RunE: func(cmd *cobra.Command, _ []string) error {
+			sim.on = true
+			return a.live(cmd.Context(), cmd.Flags(), sim)
+		},
+	}
+	a.liveFlags(cmd.Flags(), &sim)
+	cmd.Flags().Lookup("sim").Hidden = true
+	return cmd
+}
+
+// live runs the live screen until the user quits.
+func (a *app) live(ctx context.Context, fs *pflag.FlagSet, sim simOptions) error {
+	out, ok := a.stdout.(*os.File)
+	if !ok || !term.IsTerminal(out.Fd()) {
+		return usagef("the live screen needs a terminal; for a measurement without one use 'tonetrace sweep -o OUT.csv'")
+	}
+	s, err := a.settings(fs, liveFlagKeys)
+	if err != nil {
+		return err
+	}
+	if err := validate(s); err != nil {
+		return err
+	}
+	modeName, _ := fs.GetString("mode")
+	mode, err := tui.ParseMode(modeName)
+	if err != nil {
+		return usageError{err}
+	}
+	var prediction *trace.Trace
+	if a.model != "" {
+		n, err := netlist.ParseFile(a.model)
+		if err != nil {
+			return usageError{err}
+		}
+		d, err := mna.Build(n, fixture(s))
+		if err != nil {
+			return usageError{err}
+		}
+		freqs, _ := plan.PerDecade(s.Sweep.FromHz, s.Sweep.ToHz, 50)
+		t, err := mna.Predict(d, freqs)
+		if err != nil {
+			return usageError{err}
+		}
+		prediction = &t
+	}
+	sim.paced = true
+	stream, b, err := openStream(s, sim)
+	if err != nil {
+		return err
+	}
+	logger, logFile, err := openLog()
+	if err != nil {
+		stream.Close()
+		return err
+	}
+	defer logFile.Close()
+
+	ctx, cancel := context.WithCancel(ctx)
+	defer cancel()
+	sess := newLiveSession(ctx, stream, b, s, mode, logger)
+	info := tui.InfoMsg{Device: s.Audio.Device, Backend: s.Audio.Backend, Rate: stream.Rate(), Demo: b != nil,
+		From: s.Sweep.FromHz, To: s.Sweep.ToHz}
+	if b != nil {
+		info.Device, info.Backend = "virtual bench", "bench"
+		if prediction == nil {
+			freqs, _ := plan.PerDecade(s.Sweep.FromHz, s.Sweep.ToHz, 50)
+			if t, err := b.Expected(freqs); err == nil {
+				prediction = &t
+			}
+		}
+	} else if info.Device == "" {
+		info.Device = "default device"
+	}
+	if prediction != nil {
+		sess.send(tui.PredictionMsg{Trace: prediction, Fixture: fixtureText(fixture(s))})
+	}
+	sess.start()
+	m := tui.New(sess, tui.Options{
+		Events:  sess.events,
+		Logger:  logger,
+		Profile: tui.ProfileFor(out, a.noColor),
+		Mode:    mode,
+		State:   tui.StateRunning,
+		Info:    info,
+		From:    s.Sweep.FromHz,
+		To:      s.Sweep.ToHz,
+	})
+	err = tui.Run(ctx, m, tui.RunOptions{Out: out})
+	// Teardown in order: stop the measurement, then the stream.
+	cancel()
+	sess.stop()
+	stream.Close()
+	if errors.Is(err, context.Canceled) {
+		return nil
+	}
+	return err
+}
+
+// openLog opens the log file in the user's cache directory; the screen
+// never logs to the terminal.
+func openLog() (*slog.Logger, io.Closer, error) {
+	dir, err := os.UserCacheDir()
+	if err != nil {
+		dir = os.TempDir()
+	}
+	dir = filepath.Join(dir, "tonetrace")
+	if err := os.MkdirAll(dir, 0o755); err != nil {
+		return nil, nil, fmt.Errorf("cannot create the log directory %s: %w", dir, err)
+	}
+	return tui.LogTo(filepath.Join(dir, "tonetrace.log"), slog.LevelInfo)
+}
+
+// liveSession runs the measurement behind the live screen and carries out
+// what the screen asks for (it is the screen's tui.Controller). One
+// measurement runs at a time; a change of mode, tone or a resume cancels
+// it and starts the next once it has stopped.
+type liveSession struct {
+	ctx    context.Context
+	stream audio.Stream
+	bench  *bench.Bench
+	s      *config.Settings
+	log    *slog.Logger
+	events chan tea.Msg
+
+	mu     sync.Mutex
+	mode   tui.Mode
+	toneHz float64
+	paused bool
+	cancel context.CancelFunc
+	done   chan struct{} // closed when the current run has stopped
+	wg     sync.WaitGroup
+}
+
+func newLiveSession(ctx context.Context, st audio.Stream, b *bench.Bench, s *config.Settings, mode tui.Mode, log *slog.Logger) *liveSession {
+	return &liveSession{ctx: ctx, stream: st, bench: b, s: s, log: log, mode: mode, toneHz: 1000,
+		events: make(chan tea.Msg, 256)}
+}
+
+// send delivers a message to the screen unless the session is ending.
+func (l *liveSession) send(m tea.Msg) {
+	select {
+	case l.events <- m:
+	case <-l.ctx.Done():
+	}
+}
+
+// start begins a measurement in the current mode (after the previous one
+// has stopped).
+func (l *liveSession) start() {
+	l.mu.Lock()
+	defer l.mu.Unlock()
+	if l.cancel != nil {
+		l.cancel()
+	}
+	prev := l.done
+	ctx, cancel := context.WithCancel(l.ctx)
+	done := make(chan struct{})
+	l.cancel, l.done = cancel, done
+	mode, tone := l.mode, l.toneHz
+	l.wg.Add(1)
+	go func() {
+		defer l.wg.Done()
+		defer close(done)
+		if prev != nil {
+			<-prev
+		}
+		if ctx.Err() != nil {
+			return
+		}
+		l.run(ctx, mode, tone)
+	}()
+}
+
+// stop ends the measurement and waits for it.
+func (l *liveSession) stop() {
+	l.mu.Lock()
+	if l.cancel != nil {
+		l.cancel()
+	}
+	l.mu.Unlock()
+	l.wg.Wait()
+}
+
+// run measures in one mode until ctx ends, turning engine events into
+// screen messages.
+func (l *liveSession) run(ctx context.Context, mode tui.Mode, toneHz float64) {
+	if mode == tui.ModeAny {
+		l.runAnySignal(ctx)
+		return
+	}
+	cfg := engine.Config{From: l.s.Sweep.FromHz, To: l.s.Sweep.ToHz, PerDecade: l.s.Sweep.PointsPerDecade, Repeat: true}
+	switch mode {
+	case tui.ModeMultitone:
+		cfg.Method = engine.Multitone
+		cfg.Periods = 1
+	case tui.ModeTone:
+		cfg.Plan = []float64{toneHz}
+	}
+	eng := engine.New(l.stream, cfg)
+	errc := make(chan error, 1)
+	go func() { errc <- eng.Run(ctx) }()
+	for ev := range eng.Events() {
+		switch e := ev.(type) {
+		case engine.PointEvent:
+			if mode == tui.ModeTone {
+				l.send(tui.ToneMsg{Point: e.Point})
+			} else {
+				l.send(tui.PointMsg{Point: e.Point, Restart: e.Index == 0})
+			}
+		case engine.TraceEvent:
+			if mode != tui.ModeTone {
+				t := e.Trace
+				l.send(tui.TraceMsg{Trace: &t, Complete: e.Complete})
+			}
+		case engine.ProgressEvent:
+			if mode == tui.ModeStepped {
+				l.send(tui.ProgressMsg{Done: e.Done, Total: e.Total, Freq: e.Freq, Sweeps: e.Sweep})
+			}
+		case engine.StatusEvent:
+			l.send(tui.StatusMsg{Status: screenStatus(e.Status)})
+		}
+	}
+	err := <-errc
+	if err != nil && ctx.Err() == nil {
+		l.log.Error("measurement stopped", "err", err)
+		l.send(tui.ErrMsg{Err: err, Fatal: errors.Is(err, audio.ErrDeviceLost)})
+	}
+}
+
+// screenStatus turns the monitors' status into the screen's.
+func screenStatus(st engine.Status) tui.Status {
+	out := tui.Status{LatencyMs: math.NaN(), SNRdB: math.NaN(), DriftPPM: st.DriftPPM,
+		Dropouts: st.Stats.Dropped + st.Stats.Underruns}
+	if st.LatencyKnown && st.Stats.PlayFrames > 0 {
+		// Frames to milliseconds at the stream's rate: the status does not
+		// carry the rate, so use the capture index and audio time.
+		if st.Seconds > 0 && st.Frame > 0 {
+			out.LatencyMs = 1000 * float64(st.Latency) * st.Seconds / float64(st.Frame)
+		}
+	}
+	for _, in := range st.Inputs {
+		if in.Role == "" {
+			continue
+		}
+		out.Inputs = append(out.Inputs, tui.InputStatus{Name: in.Role, RMSdBFS: in.RMSDBFS, PeakdBFS: in.PeakDBFS,
+			Clipping: in.Clipped > 0, Dead: math.IsInf(in.PeakDBFS, -1)})
+	}
+	for _, p := range st.Problems {
+		severe := p.Code == engine.CodeDeadRef || p.Code == engine.CodeDeadDUT || p.Code == engine.CodeClip || p.Code == engine.CodeUnplug
+		out.Problems = append(out.Problems, tui.Problem{Code: p.Code, Text: p.Message, Fix: p.Fix, Severe: severe})
+	}
+	return out
+}
+
+// runAnySignal plays pink noise and estimates H1 from whatever arrives,
+// refreshing the screen twice a second with the response and its
+// coherence.
+func (l *liveSession) runAnySignal(ctx context.Context) {
+	rate := float64(l.stream.Rate())
+	w, err := spectral.NewWelch(8192, rate)
+	if err != nil {
+		l.send(tui.ErrMsg{Err: err})
+		return
+	}
+	noise, err := stimulus.NewPinkNoise(7, 0, 0)
+	if err != nil {
+		l.send(tui.ErrMsg{Err: err})
+		return
+	}
+	var wg sync.WaitGroup
+	wg.Add(1)
+	go func() { // the writer keeps the playout queue fed
+		defer wg.Done()
+		buf := make([]float64, l.stream.Rate()/20)
+		for ctx.Err() == nil {
+			noise.Read(buf)
+			if _, err := l.stream.Write(ctx, buf); err != nil {
+				return
+			}
+		}
+	}()
+	defer wg.Wait()
+	defer l.stream.Finish()
+	in, _ := l.stream.Channels()
+	r := l.stream.Routing()
+	dst := make([][]float64, in)
+	for i := range dst {
+		dst[i] = make([]float64, 4096)
+	}
+	next := time.Now().Add(500 * time.Millisecond)
+	for ctx.Err() == nil {
+		n, _, err := l.stream.Read(ctx, dst)
+		if err != nil {
+			if ctx.Err() == nil {
+				l.send(tui.ErrMsg{Err: err, Fatal: errors.Is(err, audio.ErrDeviceLost)})
+			}
+			return
+		}
+		w.Add(dst[r.Reference-1][:n], dst[r.Response-1][:n])
+		if time.Now().After(next) && w.Segments() > 0 {
+			next = time.Now().Add(500 * time.Millisecond)
+			if t, err := w.Trace(l.s.Sweep.FromHz, l.s.Sweep.ToHz, 24); err == nil {
+				l.send(tui.TraceMsg{Trace: &t, Complete: true})
+			}
+		}
+	}
+}
+
+// The tui.Controller methods. Each returns at once.
+
+func (l *liveSession) SetMode(m tui.Mode) error {
+	if !m.Valid() {
+		return fmt.Errorf("unknown way of measuring %d", m)
+	}
+	l.mu.Lock()
+	l.mode, l.paused = m, false
+	l.mu.Unlock()
+	l.start()
+	return nil
+}
+
+func (l *liveSession) Pause(paused bool) error {
+	l.mu.Lock()
+	l.paused = paused
+	cancel := l.cancel
+	l.mu.Unlock()
+	if paused {
+		if cancel != nil {
+			cancel()
+		}
+		return nil
+	}
+	l.start()
+	return nil
+}
+
+func (l *liveSession) Mute(muted bool) {
+	if muted {
+		l.stream.Output().Mute()
+	} else {
+		l.stream.Output().Unmute()
+	}
+}
+
+func (l *liveSession) SetLevel(dBFS float64) error { return l.stream.Output().SetLevel(dBFS) }
+
+func (l *liveSession) Level() (level, cap, def float64) {
+	o := l.stream.Output()
+	return o.Level(), o.Cap(), l.s.Output.LevelDBFS
+}
+
+func (l *liveSession) SetToneFreq(hz float64) error {
+	if !(hz > 0 && hz < float64(l.stream.Rate())/2) {
+		return fmt.Errorf("tone %g Hz is outside 0 to %d Hz; choose a frequency below half the sample rate", hz, l.stream.Rate()/2)
+	}
+	l.mu.Lock()
+	l.toneHz = hz
+	restart := l.mode == tui.ModeTone && !l.paused
+	l.mu.Unlock()
+	if restart {
+		l.start()
+	}
+	return nil
+}
+
+func (l *liveSession) Tunables() []tui.Tunable {
+	if l.bench == nil {
+		return nil
+	}
+	var out []tui.Tunable
+	for _, e := range l.bench.Netlist().Elements {
+		unit := map[netlist.Kind]string{netlist.Resistor: "Ω", netlist.Capacitor: "F", netlist.Inductor: "H"}[e.Kind]
+		if unit == "" {
+			continue
+		}
+		out = append(out, tui.Tunable{Name: e.Name, Value: e.Value, Unit: unit})
+	}
+	return out
+}
+
+func (l *liveSession) SetValue(name string, v float64) error {
+	if l.bench == nil {
+		return fmt.Errorf("components can be changed only on the virtual bench (tonetrace demo)")
+	}
+	go func() {
+		if err := l.bench.SetValue(name, v); err != nil {
+			l.send(tui.ErrMsg{Err: err})
+			return
+		}
+		freqs, _ := plan.PerDecade(l.s.Sweep.FromHz, l.s.Sweep.ToHz, 50)
+		if t, err := l.bench.Expected(freqs); err == nil {
+			l.send(tui.PredictionMsg{Trace: &t, Fixture: fixtureText(fixture(l.s))})
+		}
+	}()
+	return nil
+}
