@@ -14,6 +14,7 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+	"time"
 
 	"tonetrace/audio/bench"
 	"tonetrace/audio/wavfile"
@@ -850,4 +851,90 @@ func TestSweepRig(t *testing.T) {
 		t.Errorf("worst deviation from the LADSPA one-pole %.4f dB, %.3f° over %d points; allowed 0.05 dB, 0.5°", worstDB, worstDeg, len(tr.Points))
 	}
 	t.Logf("%d points, worst %.4f dB, %.3f°", len(tr.Points), worstDB, worstDeg)
+}
+
+// TestDemoInTmux runs 'tonetrace demo' as a user would, in tmux at 80×24
+// and 160×48: it waits for the trace, checks the braille traces, the axis
+// labels and the status panes, mutes and sees it stated, resizes, quits,
+// and checks that the terminal is restored and the process is gone.
+func TestDemoInTmux(t *testing.T) {
+	if testing.Short() {
+		t.Skip("end-to-end screen test")
+	}
+	tmux := requireTool(t, "tmux")
+	dir := t.TempDir()
+	bin := filepath.Join(dir, "tonetrace")
+	if out, err := exec.Command("go", "build", "-o", bin, ".").CombinedOutput(); err != nil {
+		t.Fatalf("go build: %v\n%s", err, out)
+	}
+	hasBraille := func(p string) bool {
+		n := 0
+		for _, r := range p {
+			if r > 0x2800 && r <= 0x28FF {
+				n++
+			}
+		}
+		return n > 40
+	}
+	for _, size := range []struct{ w, h string }{{"80", "24"}, {"160", "48"}} {
+		t.Run(size.w+"x"+size.h, func(t *testing.T) {
+			sock := filepath.Join(t.TempDir(), "tmux.sock")
+			tm := func(args ...string) string {
+				t.Helper()
+				out, err := exec.Command(tmux, append([]string{"-S", sock}, args...)...).CombinedOutput()
+				if err != nil {
+					t.Fatalf("tmux %v: %v\n%s", args, err, out)
+				}
+				return string(out)
+			}
+			pane := func() string { return tm("capture-pane", "-p", "-t", "demo") }
+			waitFor := func(what string, ok func(string) bool) string {
+				t.Helper()
+				deadline := time.Now().Add(20 * time.Second)
+				for {
+					p := pane()
+					if ok(p) {
+						return p
+					}
+					if time.Now().After(deadline) {
+						t.Fatalf("timed out waiting for %s; the screen:\n%s", what, p)
+					}
+					time.Sleep(200 * time.Millisecond)
+				}
+			}
+			home := t.TempDir()
+			cmd := "XDG_CONFIG_HOME=" + home + " XDG_CACHE_HOME=" + home + " " + bin + " demo; echo tonetrace-exit=$?; sleep 60"
+			tm("new-session", "-d", "-s", "demo", "-x", size.w, "-y", size.h, cmd)
+			defer exec.Command(tmux, "-S", sock, "kill-server").Run()
+			p := waitFor("the trace", func(p string) bool { return hasBraille(p) && strings.Contains(p, "/32") })
+			if flags := strings.TrimSpace(tm("display-message", "-p", "-t", "demo", "#{alternate_on}")); flags != "1" {
+				t.Errorf("the screen does not use the alternate screen (alternate_on %q)", flags)
+			}
+			for _, want := range []string{"Gain", "Phase", "100", "1k", "10k", "response", "reference", "dBFS", "virtual bench"} {
+				if !strings.Contains(p, want) {
+					t.Errorf("screen lacks %q:\n%s", want, p)
+				}
+			}
+			tm("send-keys", "-t", "demo", "x")
+			waitFor("the mute", func(p string) bool { return strings.Contains(p, "MUTED") })
+			tm("resize-window", "-t", "demo", "-x", "100", "-y", "30")
+			waitFor("the resized screen", func(p string) bool {
+				lines := strings.Split(strings.TrimRight(p, "\n"), "\n")
+				return hasBraille(p) && len(lines) >= 28 && strings.Contains(p, "MUTED")
+			})
+			tm("send-keys", "-t", "demo", "q")
+			p = waitFor("the exit", func(p string) bool { return strings.Contains(p, "tonetrace-exit=") })
+			if !strings.Contains(p, "tonetrace-exit=0") {
+				t.Errorf("demo did not exit cleanly:\n%s", p)
+			}
+			// The terminal is restored: the pane has left the alternate
+			// screen and shows its cursor again (tmux's own view of it).
+			if flags := strings.TrimSpace(tm("display-message", "-p", "-t", "demo", "#{alternate_on} #{cursor_flag}")); flags != "0 1" {
+				t.Errorf("after quitting, tmux reports alternate screen and cursor %q, want \"0 1\"", flags)
+			}
+			if out, _ := exec.Command("pgrep", "-f", bin+" demo$").Output(); len(bytes.TrimSpace(out)) > 0 {
+				t.Errorf("tonetrace still running: pid %s", out)
+			}
+		})
+	}
 }
