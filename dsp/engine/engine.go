@@ -37,8 +37,10 @@
 // small latency error or drift does not reach into the next step. Each
 // block is fitted on both inputs (IEEE Std 1057
 // three-parameter fit with harmonics, tone.Estimator.Fit) and divided
-// (tone.Ratio). An adaptive plan (plan.Adaptive) gets every measured
-// point and its next batch is scheduled as soon as Next returns.
+// (tone.Ratio). A point whose block lost frames, or whose reference broke
+// off inside it, is measured again (twice at most) right after the steps
+// already queued. An adaptive plan (plan.Adaptive) gets every valid point
+// and its next batch is scheduled as soon as Next returns.
 //
 // Periodic multitone. A multitone (multitone.Design at the level) is
 // looped without a break; every captured whole period after the first is
@@ -53,6 +55,10 @@
 // swapped inputs. Each problem has a code (the Code constants), a message
 // and a fix. A point whose reference is dead or whose block clipped is
 // marked invalid, never silently wrong.
+//
+// Traces hold the points with a finite ratio, in ascending frequency, and
+// a Valid flag for each; a point nothing could be estimated for appears
+// only as its PointEvent.
 //
 // Events. Points, complete and partial traces and the final error are
 // never dropped: they wait in the engine until the channel has room.

@@ -731,3 +731,47 @@ func TestRealTimeDevice(t *testing.T) {
 	}
 	checkAgainst(t, q, freqs, h, tr.Valid)
 }
+
+// TestDropoutRemeasured: a point whose block lost frames is measured
+// again, so the sweep still ends complete and valid, with the dropout
+// named.
+func TestDropoutRemeasured(t *testing.T) {
+	for _, f := range []faults{{dropAt: 40000}, {zeroAt: 20000, zeroN: 50, zeroEvery: 7919}} {
+		d := newFake(t, newBiquad(bqLowpass, 1000, math.Sqrt2/2, 0, fakeRate), f)
+		cfg := monitorConfig(Steps)
+		e, c, err := runEngine(t, d, cfg, runTimeout)
+		if err != nil {
+			t.Fatal(err)
+		}
+		grid, _ := plan.PerDecade(20, 20000, cfg.PerDecade)
+		tr, ok := c.lastTrace(true)
+		if !ok || len(tr.Trace.Points) != len(grid) {
+			t.Fatalf("%+v: complete trace %v with %d points, want %d", f, ok, len(tr.Trace.Points), len(grid))
+		}
+		for i, v := range tr.Valid {
+			if !v {
+				t.Errorf("%+v: point at %g Hz invalid", f, tr.Trace.Points[i].Freq)
+			}
+		}
+		seen := map[int]bool{}
+		for _, p := range c.points {
+			if seen[p.Index] {
+				t.Errorf("%+v: point %d sent twice", f, p.Index)
+			}
+			seen[p.Index] = true
+		}
+		if !problemCodes(e.Result())[CodeDropout] {
+			t.Errorf("%+v: dropout not named: %v", f, e.Result().Problems)
+		}
+		checkAgainst(t, newBiquad(bqLowpass, 1000, math.Sqrt2/2, 0, fakeRate), grid, pointsH(tr), tr.Valid)
+	}
+}
+
+// pointsH returns the ratios of a trace event's points.
+func pointsH(tr TraceEvent) []complex128 {
+	h := make([]complex128, len(tr.Trace.Points))
+	for i, p := range tr.Trace.Points {
+		h[i] = p.H
+	}
+	return h
+}

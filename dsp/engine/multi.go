@@ -49,7 +49,8 @@ type multiMode struct {
 	prevShift int64
 	havePrev  bool
 	respDead  bool
-	clipped   bool // a period of the current average clipped
+	clipped   bool  // a period of the current average clipped
+	refDead   []int // per tone: periods of the current average with a dead reference
 	wiring    []levelPoint
 }
 
@@ -69,7 +70,7 @@ func newMultiMode(r *run) (*multiMode, error) {
 		buf:    make([]float64, 4096),
 		refBuf: make([]float64, p), respBuf: make([]float64, p),
 		fft: fourier.NewFFT(p), coef: make([]complex128, p/2+1), resid: make([]float64, p),
-		prev: make([]complex128, mt.NumTones()),
+		prev: make([]complex128, mt.NumTones()), refDead: make([]int, mt.NumTones()),
 	}, nil
 }
 
@@ -214,7 +215,7 @@ func (m *multiMode) analyzePeriod(j, c0, shift int64) {
 			if t.Ref == 0 || abs2(t.Ref) < 16*t.RefNoise {
 				nRefNoise++
 			}
-			t.H = cmplx.NaN()
+			m.refDead[k]++ // the tone's average is marked invalid
 		}
 		if respDead {
 			nRespDead++
@@ -272,6 +273,7 @@ func (m *multiMode) analyzePeriod(j, c0, shift int64) {
 		if r.cfg.Repeat {
 			m.avg.Reset()
 			m.count, m.clipped = 0, false
+			clear(m.refDead)
 		} else {
 			m.done = true
 		}
@@ -293,13 +295,19 @@ func (m *multiMode) driftCheck(j, shift int64) {
 	}
 	if m.havePrev && m.prevJ == j-1 {
 		var sff, sfd, delta float64
+		used := 0
 		for k := range m.frame.Tones {
 			t := &m.frame.Tones[k]
 			z, noise := cur(t)
 			p := m.prev[k]
-			if z == 0 || p == 0 || cmplx.IsNaN(z) {
+			// Only tones well above the noise (and the dead margin) tell
+			// the clock.
+			floor := m.tones[k].Amplitude * r.levelAmp() * math.Pow(10, -DeadMarginDB/20)
+			if z == 0 || p == 0 || cmplx.IsNaN(z) || abs2(z) < 100*noise || abs2(p) < 100*noise ||
+				cmplx.Abs(z) < floor || cmplx.Abs(p) < floor {
 				continue
 			}
+			used++
 			v := max(noise/abs2(z)+noise/abs2(p), 1e-14)
 			w := 1 / v
 			om := 2 * math.Pi * t.Freq / r.fr
@@ -310,7 +318,7 @@ func (m *multiMode) driftCheck(j, shift int64) {
 			sfd += w * om * d
 			delta = sfd / sff
 		}
-		if sff > 0 {
+		if used >= 3 && sff > 0 {
 			// The windows moved by the drift correction between periods.
 			total := delta + float64(shift-m.prevShift)
 			pp := float64(m.p)
@@ -358,23 +366,20 @@ func (m *multiMode) residualChecks(ref, resp []float64, glitches bool) {
 	}
 }
 
-// traceNow returns the running average as a trace, with a NaN point
-// (invalid) for every tone no period has measured yet.
+// traceNow returns the running average as a trace: one point per tone
+// with a finite ratio in some period (an exactly silent reference gives
+// none), invalid when the response is dead, a period clipped, or the
+// tone's reference was dead in a period of the average.
 func (m *multiMode) traceNow() (trace.Trace, []bool) {
-	var avg trace.Trace
-	m.avg.TraceInto(&avg)
-	tr := trace.Trace{Meta: avg.Meta, Points: make([]trace.Point, 0, len(m.tones))}
-	valid := make([]bool, 0, len(m.tones))
-	i := 0
-	for _, t := range m.tones {
-		if i < len(avg.Points) && avg.Points[i].Freq == t.Freq {
-			tr.Points = append(tr.Points, avg.Points[i])
-			valid = append(valid, !m.respDead && !m.clipped)
-			i++
-			continue
+	var tr trace.Trace
+	m.avg.TraceInto(&tr)
+	valid := make([]bool, len(tr.Points))
+	k := 0
+	for i, p := range tr.Points {
+		for k < len(m.tones) && m.tones[k].Freq < p.Freq {
+			k++
 		}
-		tr.Points = append(tr.Points, trace.NewPoint(t.Freq, cmplx.NaN()))
-		valid = append(valid, false)
+		valid[i] = !m.respDead && !m.clipped && k < len(m.tones) && m.refDead[k] == 0
 	}
 	m.r.meta(&tr, m.sweep)
 	return tr, valid

@@ -32,8 +32,13 @@ type stepSched struct {
 	phase     float64 // stimulus phase (radians, sine) at integ
 	sweep     int
 	index     int
+	retry     int   // earlier attempts at this point
 	minFrames int64 // least settling plus least integration
 }
+
+// maxRetries is how many times a point whose block lost frames (or whose
+// reference broke off inside it) is measured again.
+const maxRetries = 2
 
 // Generator states.
 const (
@@ -61,6 +66,7 @@ type stepMode struct {
 	fixed    []float64
 	adapt    *plan.Adaptive
 	queue    []float64
+	retries  []stepSched // points to measure again, before the queue
 	qSweep   int
 	qIndex   int
 	stopping bool
@@ -173,7 +179,7 @@ func (m *stepMode) integFrames(f float64) (n, least int) {
 
 // hasNext reports whether another step can be scheduled now.
 func (m *stepMode) hasNext() bool {
-	return !m.stopping && (len(m.queue) > 0 || m.fixed != nil && m.r.cfg.Repeat)
+	return !m.stopping && (len(m.retries) > 0 || len(m.queue) > 0 || m.fixed != nil && m.r.cfg.Repeat)
 }
 
 // makeStep takes the next frequency and decides its step, starting at
@@ -183,14 +189,23 @@ func (m *stepMode) makeStep(at int64, runStart bool) (stepSched, bool) {
 	if m.stopping {
 		return stepSched{}, false
 	}
-	if len(m.queue) == 0 {
+	var again *stepSched
+	if len(m.retries) > 0 {
+		again = &m.retries[0]
+		m.retries = m.retries[1:]
+	} else if len(m.queue) == 0 {
 		if m.fixed == nil || !m.r.cfg.Repeat {
 			return stepSched{}, false
 		}
 		m.queue, m.qSweep, m.qIndex = m.fixed, m.qSweep+1, 0
 	}
-	f := m.queue[0]
-	m.queue = m.queue[1:]
+	var f float64
+	if again != nil {
+		f = again.freq
+	} else {
+		f = m.queue[0]
+		m.queue = m.queue[1:]
+	}
 	settle := m.settleFrames(f)
 	least := int64(settle)
 	if runStart {
@@ -203,7 +218,11 @@ func (m *stepMode) makeStep(at int64, runStart bool) (stepSched, bool) {
 	}
 	s := stepSched{freq: f, start: at, integ: at + int64(settle), settle: settle, length: n, skip: skip,
 		sweep: m.qSweep, index: m.qIndex, minFrames: least + int64(leastN)}
-	m.qIndex++
+	if again != nil {
+		s.sweep, s.index, s.retry = again.sweep, again.index, again.retry
+	} else {
+		m.qIndex++
+	}
 	if m.adapt != nil {
 		m.batchOut++
 	}
@@ -383,6 +402,16 @@ func (m *stepMode) measure(p stepSched, c0 int64) error {
 		m.sw.firstStart = p.start
 	}
 	ev := m.point(p, c0)
+	if !ev.Valid && transient(ev) && p.retry < maxRetries && p.sweep == m.qSweep && !m.stopping {
+		// Lost frames or a broken-off reference say nothing about the
+		// circuit: measure the point again, next.
+		p.retry++
+		m.retries = append(m.retries, p)
+		if m.adapt != nil {
+			m.batchOut--
+		}
+		return nil
+	}
 	m.sw.points = append(m.sw.points, ev)
 	m.sw.minFrames += p.minFrames
 	m.sw.lastEnd = c0 + int64(p.length)
@@ -398,13 +427,13 @@ func (m *stepMode) measure(p stepSched, c0 int64) error {
 	e.mu.Unlock()
 
 	if m.adapt == nil {
-		if p.index == len(m.fixed)-1 {
+		if len(m.sw.points) == len(m.fixed) {
 			m.complete()
 		}
 		return nil
 	}
 	m.batchOut--
-	if m.batchOut > 0 || len(m.queue) > 0 {
+	if m.batchOut > 0 || len(m.queue) > 0 || len(m.retries) > 0 {
 		return nil
 	}
 	next, err := m.adapt.Next(m.measured)
@@ -432,10 +461,29 @@ func (m *stepMode) measure(p stepSched, c0 int64) error {
 
 func (m *stepMode) mon() *monitors { return &m.r.mon }
 
+// transient reports whether an invalid point failed for a passing reason
+// — frames lost or the reference broken off in its block — and nothing
+// that measuring again would find again (clipping, a dead input, a muted
+// output).
+func transient(ev PointEvent) bool {
+	for _, p := range ev.Problems {
+		if p.Code != CodeDropout {
+			return false
+		}
+	}
+	return len(ev.Problems) > 0
+}
+
 // sweepTrace returns the sweep's points in ascending frequency with their
-// validity.
+// validity. A point with no finite ratio (nothing could be estimated) has
+// no place in a trace; its PointEvent said why.
 func (m *stepMode) sweepTrace() (trace.Trace, []bool) {
-	pts := append([]PointEvent(nil), m.sw.points...)
+	pts := make([]PointEvent, 0, len(m.sw.points))
+	for _, p := range m.sw.points {
+		if !cmplx.IsNaN(p.Point.H) && !cmplx.IsInf(p.Point.H) {
+			pts = append(pts, p)
+		}
+	}
 	sort.SliceStable(pts, func(i, j int) bool { return pts[i].Point.Freq < pts[j].Point.Freq })
 	var tr trace.Trace
 	valid := make([]bool, len(pts))
