@@ -1206,6 +1206,12 @@ func (a *app) sweep(ctx context.Context, fs *pflag.FlagSet, out string, sim simO
 		return err
 	}
 	defer stream.Close()
+	if d, ok := stream.(*device.Stream); ok {
+		// miniaudio converts silently; say what it does behind our back.
+		for _, c := range d.Conversions() {
+			fmt.Fprintf(a.stderr, "%s: sweep: note: %s\n", programName, c)
+		}
+	}
 
 	cfg := engine.Config{
 		From: s.Sweep.FromHz, To: s.Sweep.ToHz, PerDecade: s.Sweep.PointsPerDecade,
