@@ -13,6 +13,7 @@ import (
 	"os/exec"
 	"path/filepath"
 	"strings"
+	"syscall"
 	"testing"
 	"time"
 
@@ -827,6 +828,19 @@ func TestSweepRig(t *testing.T) {
 			t.Fatal("the PulseAudio rig is required (TONETRACE_REQUIRE_TOOLS=1); start it with: eval \"$(bash .ci/pulse-rig.sh start)\"")
 		}
 		t.Skip("PulseAudio rig not running")
+	}
+	// go test runs packages in parallel; audio/device's rig tests use the
+	// same sink, so hold the rig's lock (see lockRig there) while sweeping.
+	if dir := os.Getenv("TONETRACE_PULSE_RIG_DIR"); dir != "" {
+		f, err := os.OpenFile(filepath.Join(dir, "tests.lock"), os.O_CREATE|os.O_RDWR, 0o600)
+		if err != nil {
+			t.Fatal(err)
+		}
+		defer f.Close()
+		if err := syscall.Flock(int(f.Fd()), syscall.LOCK_EX); err != nil {
+			t.Fatal(err)
+		}
+		defer syscall.Flock(int(f.Fd()), syscall.LOCK_UN)
 	}
 	out := filepath.Join(t.TempDir(), "rig.csv")
 	code, _, stderr := runCLI(t, "sweep", "--backend", "pulseaudio", "--playback", "out", "--capture", "cap.monitor",

@@ -11,6 +11,7 @@ import (
 	"os/exec"
 	"path/filepath"
 	"sync"
+	"syscall"
 	"testing"
 	"time"
 
@@ -56,6 +57,7 @@ func rigConfig(t *testing.T) Config {
 		}
 		t.Skipf("PulseAudio rig not running; start it with: eval \"$(bash .ci/pulse-rig.sh start)\" (sets %s=1)", rigEnv)
 	}
+	lockRig(t)
 	cfg := DefaultConfig()
 	cfg.Backend = BackendPulseAudio // explicitly: with no server the default list falls back to ALSA
 	cfg.Playback, cfg.Capture = rigPlayback, rigCapture
@@ -479,4 +481,27 @@ func TestPulseRigList(t *testing.T) {
 			t.Errorf("%s: %d channels, %d Hz, %q; the rig gives 2, 48000, 32-bit float", key, d.Channels, d.Rate, d.Format)
 		}
 	}
+}
+
+// lockRig holds the rig for the rest of the test. go test runs packages in
+// parallel, and two streams playing into the rig's one sink would mix: the
+// tests that use the rig (here and in the main package) take an exclusive
+// lock on a file in the rig's directory first.
+func lockRig(t *testing.T) {
+	t.Helper()
+	dir := os.Getenv("TONETRACE_PULSE_RIG_DIR")
+	if dir == "" {
+		return
+	}
+	f, err := os.OpenFile(filepath.Join(dir, "tests.lock"), os.O_CREATE|os.O_RDWR, 0o600)
+	if err != nil {
+		t.Fatalf("locking the rig: %v", err)
+	}
+	if err := syscall.Flock(int(f.Fd()), syscall.LOCK_EX); err != nil {
+		t.Fatalf("locking the rig: %v", err)
+	}
+	t.Cleanup(func() {
+		syscall.Flock(int(f.Fd()), syscall.LOCK_UN)
+		f.Close()
+	})
 }
