@@ -11,6 +11,7 @@
 package main
 
 import (
+	"cmp"
 	"context"
 	"encoding/json"
 	"errors"
@@ -1458,6 +1459,8 @@ func (a *app) live(ctx context.Context, fs *pflag.FlagSet, sim simOptions) error
 				prediction = &t
 			}
 		}
+	} else if s.Audio.Playback != "" || s.Audio.Capture != "" {
+		info.Device = cmp.Or(s.Audio.Playback, s.Audio.Device, "default") + " → " + cmp.Or(s.Audio.Capture, s.Audio.Device, "default")
 	} else if info.Device == "" {
 		info.Device = "default device"
 	}
