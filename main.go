@@ -1778,7 +1778,11 @@ func (l *liveSession) SetValue(name string, v float64) error {
 	if l.bench == nil {
 		return fmt.Errorf("components can be changed only on the virtual bench (tonetrace demo)")
 	}
+	// The bench applies the change between two of its periods; wait for it
+	// off the screen's goroutine. stop waits for this goroutine too.
+	l.wg.Add(1)
 	go func() {
+		defer l.wg.Done()
 		if err := l.bench.SetValue(name, v); err != nil {
 			l.send(tui.ErrMsg{Err: err})
 			return
