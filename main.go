@@ -63,12 +63,11 @@ var version = ""
 
 // Exit statuses.
 const (
-	exitOK       = 0
-	exitFailure  = 1
-	exitUsage    = 2
-	exitInvalid  = 3
-	programName  = "tonetrace"
-	stimulusPeak = "peak"
+	exitOK      = 0
+	exitFailure = 1
+	exitUsage   = 2
+	exitInvalid = 3
+	programName = "tonetrace"
 )
 
 func main() {

@@ -4,7 +4,6 @@ import (
 	"errors"
 	"fmt"
 	"math"
-	"math/cmplx"
 	"strings"
 	"sync"
 	"time"
@@ -254,11 +253,6 @@ func demoStatus() Status {
 // demoParts are the tunables of a demo RC bench.
 func demoParts() []Tunable {
 	return []Tunable{{Name: "R1", Value: rcR, Unit: "Ω"}, {Name: "C1", Value: rcC, Unit: "F", Series: eseries.E12}}
-}
-
-// gainAt returns 20·log10|h(f)|.
-func gainAt(h func(float64) complex128, f float64) float64 {
-	return 20 * math.Log10(cmplx.Abs(h(f)))
 }
 
 // lines splits a view into its lines.

@@ -305,7 +305,7 @@ func TestFramePacing(t *testing.T) {
 		t.Error("change after the interval not drawn")
 	}
 	// A view is cached: with nothing new, View returns the same string.
-	if m.View() != m.View() {
+	if first, again := m.View(), m.View(); first != again {
 		t.Error("view not cached")
 	}
 }

@@ -58,10 +58,10 @@ type styles struct {
 	refs                                                                 [MaxReferences]lipgloss.Style
 
 	// Plot cells: SGR sequences ("" without colour) by what a cell shows.
-	sgrGrid, sgrAxis, sgrLabel, sgrTitle string
-	sgrSeries                            [styleRef + MaxReferences]string
-	sgrCursor                            string // added to cells of the cursor column
-	sgrReset                             string
+	sgrGrid, sgrLabel, sgrTitle string
+	sgrSeries                   [styleRef + MaxReferences]string
+	sgrCursor                   string // added to cells of the cursor column
+	sgrReset                    string
 }
 
 // newStyles builds the styles for a colour profile. termenv.Ascii gives

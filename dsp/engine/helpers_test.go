@@ -2,8 +2,6 @@ package engine
 
 import (
 	"context"
-	"math"
-	"math/cmplx"
 	"testing"
 	"time"
 )
@@ -74,6 +72,3 @@ func problemCodes(r Result) map[string]bool {
 	}
 	return m
 }
-
-func log10abs(h complex128) float64 { return math.Log10(cmplx.Abs(h)) }
-func phdeg(h complex128) float64    { return cmplx.Phase(h) * 180 / math.Pi }

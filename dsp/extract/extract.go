@@ -596,7 +596,7 @@ func (a *Analyzer) AnalyzeInto(dst *Params, points []trace.Point) error {
 	}
 
 	// Reference level.
-	ref := math.NaN()
+	var ref float64
 	switch shape {
 	case ShapeLowpass, ShapeShelf:
 		ref = levelLo
