@@ -1075,6 +1075,7 @@ var deviceFlags = map[string]string{
 	"playback": "audio.playback",
 	"capture":  "audio.capture",
 	"backend":  "audio.backend",
+	"outputs":  "audio.stimulus_outputs",
 	"rate":     "audio.rate",
 	"ref":      "audio.ref_input",
 	"dut":      "audio.dut_input",
@@ -1086,6 +1087,7 @@ func addDeviceFlags(f *pflag.FlagSet) {
 	f.String("playback", "", "playback device, when it differs from --device")
 	f.String("capture", "", "capture device, when it differs from --device")
 	f.String("backend", "auto", "sound system: auto, pulseaudio, alsa, jack, null")
+	f.String("outputs", "", "1-based outputs that carry the stimulus, e.g. 1,2 (default: every output)")
 	f.String("rate", "48k", "sample rate, Hz")
 	f.Int("ref", 2, "1-based input receiving the looped-back stimulus (the reference)")
 	f.Int("dut", 1, "1-based input behind the network (the response)")
@@ -1095,7 +1097,11 @@ func addDeviceFlags(f *pflag.FlagSet) {
 // openStream opens the virtual bench or the configured device. The bench is
 // returned too when it is the stream (for live component changes).
 func openStream(s *config.Settings, sim simOptions) (audio.Stream, *bench.Bench, error) {
-	routing := audio.Routing{Response: s.Audio.DUTInput, Reference: s.Audio.RefInput}
+	outs, err := config.ParseChannels(s.Audio.StimulusOutputs) // checked by Validate
+	if err != nil {
+		return nil, nil, usageError{err}
+	}
+	routing := audio.Routing{Stimulus: audio.MaskOf(outs...), Response: s.Audio.DUTInput, Reference: s.Audio.RefInput}
 	out := audio.DefaultOutputConfig()
 	out.LevelDBFS, out.CapDBFS, out.FadeMS = s.Output.LevelDBFS, s.Output.CapDBFS, max(1, s.Output.FadeMS)
 	if sim.on {

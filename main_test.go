@@ -952,3 +952,18 @@ func TestDemoInTmux(t *testing.T) {
 		})
 	}
 }
+
+// TestSweepStimulusOutputs routes the stimulus to output 1 only: on the
+// virtual bench output 2 is the loopback, so the monitors must find the
+// reference silent, and a bad list is refused with the setting named.
+func TestSweepStimulusOutputs(t *testing.T) {
+	out := filepath.Join(t.TempDir(), "sweep.csv")
+	code, _, stderr := runCLI(t, "sweep", "--sim", "--outputs", "1", "--ppd", "3", "-o", out)
+	if code != exitInvalid || !strings.Contains(stderr, "problem: dead-ref:") {
+		t.Errorf("stimulus on output 1 only: exit %d, want 3 naming dead-ref:\n%s", code, stderr)
+	}
+	code, _, stderr = runCLI(t, "sweep", "--sim", "--outputs", "1,x", "-o", out)
+	if code != exitUsage || !strings.Contains(stderr, "audio.stimulus_outputs") {
+		t.Errorf("bad --outputs: exit %d, stderr %q; want 2 naming audio.stimulus_outputs", code, stderr)
+	}
+}

@@ -90,14 +90,15 @@ func ExampleSettings_Describe() {
 	// Output:
 	// # settings file: none read
 	// [audio]
-	// rate      = 48000   # default
-	// period_ms = 20      # default
-	// backend   = "auto"  # default
-	// device    = ""      # default
-	// playback  = ""      # default
-	// capture   = ""      # default
-	// ref_input = 2       # default
-	// dut_input = 1       # default
+	// rate             = 48000   # default
+	// period_ms        = 20      # default
+	// backend          = "auto"  # default
+	// device           = ""      # default
+	// playback         = ""      # default
+	// capture          = ""      # default
+	// stimulus_outputs = ""      # default
+	// ref_input        = 2       # default
+	// dut_input        = 1       # default
 	//
 	// [output]
 	// level_dbfs = -30  # --level

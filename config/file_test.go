@@ -98,7 +98,7 @@ func TestParseErrors(t *testing.T) {
 		want []fileProblem
 	}{
 		{name: "unknown key", in: "[audio]\nrate = 48000\nrat = 44100\n", want: []fileProblem{{line: 3, col: 1, frags: []string{
-			`bench.toml:3:1: unknown key "rat" in [audio]`, "known keys there: rate, period_ms, backend, device, playback, capture, ref_input, dut_input", `did you mean "rate"?`}}}},
+			`bench.toml:3:1: unknown key "rat" in [audio]`, "known keys there: rate, period_ms, backend, device, playback, capture, stimulus_outputs, ref_input, dut_input", `did you mean "rate"?`}}}},
 		{name: "unknown key indented", in: "[sweep]\n  to_hz = 1000\n  tohz = 2\n", want: []fileProblem{{line: 3, col: 3, frags: []string{
 			`unknown key "tohz" in [sweep]`, "from_hz, to_hz, points_per_decade", `did you mean "to_hz"?`}}}},
 		{name: "keys are case-sensitive", in: "[audio]\nRate = 5\n", want: []fileProblem{{line: 2, col: 1, frags: []string{
@@ -441,7 +441,7 @@ func TestDescribe(t *testing.T) {
 	out := b.String()
 	for _, want := range []string{
 		"# settings file: my.toml\n",
-		"[audio]\nrate      = 96000   # my.toml:2\n",
+		"[audio]\nrate             = 96000   # my.toml:2\n",
 		"to_hz             = 30000    # 30 kHz, --to\n",
 		"load_farads = 1e-10  # 100 pF, default\n",
 	} {

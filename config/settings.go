@@ -77,6 +77,10 @@ type Audio struct {
 	// the looped-back stimulus (the reference). Default 2; 1 to 64; must
 	// differ from DUTInput.
 	RefInput int
+	// StimulusOutputs is audio.stimulus_outputs, the 1-based output
+	// channels that carry the stimulus, comma-separated ("1,2"); ""
+	// (default) means every output. Parse it with [ParseChannels].
+	StimulusOutputs string
 	// DUTInput is audio.dut_input, the 1-based input channel behind the
 	// circuit (the response). Default 1; 1 to 64; must differ from
 	// RefInput.
@@ -238,6 +242,9 @@ var specs = []spec{
 	{key: "audio.capture", kind: kindName,
 		desc: "Capture device when it differs from device; empty means device.",
 		str:  func(s *Settings) *string { return &s.Audio.Capture }},
+	{key: "audio.stimulus_outputs", kind: kindName,
+		desc: "Output channels (1-based, comma-separated, e.g. \"1,2\") that carry the stimulus; empty means every output.",
+		str:  func(s *Settings) *string { return &s.Audio.StimulusOutputs }},
 	{key: "audio.ref_input", kind: kindCount, lo: 1, hi: 64,
 		desc: "Input channel (1-based) that receives the looped-back stimulus, the reference.",
 		n:    func(s *Settings) *int { return &s.Audio.RefInput }},

@@ -4,6 +4,7 @@ import (
 	"errors"
 	"fmt"
 	"slices"
+	"strconv"
 	"strings"
 )
 
@@ -96,6 +97,12 @@ func (s *Settings) Validate() error {
 	}
 	a, o, w := &s.Audio, &s.Output, &s.Sweep
 
+	if _, err := ParseChannels(a.StimulusOutputs); err != nil {
+		errs = append(errs, &SettingError{Key: "audio.stimulus_outputs", Value: strconvQuote(a.StimulusOutputs),
+			Origin: s.Origin("audio.stimulus_outputs"), Allowed: "1-based output numbers from 1 to 32, comma-separated, or empty for every output",
+			Hint: err.Error()})
+		bad["audio.stimulus_outputs"] = true
+	}
 	if !bad["audio.ref_input"] && !bad["audio.dut_input"] && a.RefInput == a.DUTInput {
 		fail("audio.dut_input", a.DUTInput,
 			fmt.Sprintf("must differ from audio.ref_input %d (from %s)", a.RefInput, s.Origin("audio.ref_input")),
@@ -173,3 +180,31 @@ func (sp *spec) between() string {
 	}
 	return r
 }
+
+// MaxOutputChannel is the highest output channel audio.stimulus_outputs
+// may name.
+const MaxOutputChannel = 32
+
+// ParseChannels reads a comma-separated list of 1-based channel numbers
+// ("1,2", "2"); "" is an empty list, meaning every channel. Numbers must
+// lie between 1 and [MaxOutputChannel] and appear once.
+func ParseChannels(s string) ([]int, error) {
+	if strings.TrimSpace(s) == "" {
+		return nil, nil
+	}
+	var out []int
+	for _, f := range strings.Split(s, ",") {
+		f = strings.TrimSpace(f)
+		n, err := strconv.Atoi(f)
+		if err != nil || n < 1 || n > MaxOutputChannel {
+			return nil, fmt.Errorf("%q is not a channel number from 1 to %d; write e.g. \"1,2\"", f, MaxOutputChannel)
+		}
+		if slices.Contains(out, n) {
+			return nil, fmt.Errorf("channel %d is named twice", n)
+		}
+		out = append(out, n)
+	}
+	return out, nil
+}
+
+func strconvQuote(s string) string { return strconv.Quote(s) }
