@@ -19,6 +19,7 @@ import (
 
 	"tonetrace/audio/bench"
 	"tonetrace/audio/wavfile"
+	iir "tonetrace/dsp/biquad"
 	"tonetrace/dsp/extract"
 	"tonetrace/dsp/stimulus"
 	"tonetrace/dsp/trace"
@@ -38,55 +39,38 @@ func runCLI(t *testing.T, args ...string) (code int, stdout, stderr string) {
 }
 
 // biquad is a direct-form-I filter with the coefficients of the W3C Audio
-// EQ Cookbook (REFERENCES.md §7), normalised by a0.
-type biquad struct{ b0, b1, b2, a1, a2 float64 }
+// EQ Cookbook (REFERENCES.md §7), normalised by a0, from package dsp/biquad.
+type biquad struct{ iir.Coeffs }
 
 // cookbook returns the RBJ cookbook biquad of the given type at fs.
 // Source: W3C Working Group Note "Audio EQ Cookbook" (2021), REFERENCES §7 [S].
 func cookbook(kind string, f0, q, gainDB, fs float64) biquad {
-	w0 := 2 * math.Pi * f0 / fs
-	c, s := math.Cos(w0), math.Sin(w0)
-	alpha := s / (2 * q)
-	A := math.Pow(10, gainDB/40)
-	var b0, b1, b2, a0, a1, a2 float64
+	var k iir.Kind
 	switch kind {
 	case "lowpass":
-		b0, b1, b2 = (1-c)/2, 1-c, (1-c)/2
-		a0, a1, a2 = 1+alpha, -2*c, 1-alpha
+		k = iir.LowPass
 	case "highpass":
-		b0, b1, b2 = (1+c)/2, -(1 + c), (1+c)/2
-		a0, a1, a2 = 1+alpha, -2*c, 1-alpha
+		k = iir.HighPass
 	case "bandpass":
-		b0, b1, b2 = alpha, 0, -alpha
-		a0, a1, a2 = 1+alpha, -2*c, 1-alpha
+		k = iir.BandPass
 	case "notch":
-		b0, b1, b2 = 1, -2*c, 1
-		a0, a1, a2 = 1+alpha, -2*c, 1-alpha
+		k = iir.Notch
 	case "peaking":
-		b0, b1, b2 = 1+alpha*A, -2*c, 1-alpha*A
-		a0, a1, a2 = 1+alpha/A, -2*c, 1-alpha/A
+		k = iir.Peaking
 	default:
 		panic("unknown cookbook filter " + kind)
 	}
-	return biquad{b0 / a0, b1 / a0, b2 / a0, a1 / a0, a2 / a0}
+	return biquad{iir.Design(k, f0, q, gainDB, fs)}
 }
 
 // response is the digital frequency response H(e^{jω}) at f.
-func (q biquad) response(f, fs float64) complex128 {
-	z1 := cmplx.Exp(complex(0, -2*math.Pi*f/fs))
-	z2 := z1 * z1
-	return (complex(q.b0, 0) + complex(q.b1, 0)*z1 + complex(q.b2, 0)*z2) /
-		(1 + complex(q.a1, 0)*z1 + complex(q.a2, 0)*z2)
-}
+func (q biquad) response(f, fs float64) complex128 { return q.Response(f, fs) }
 
+// filter runs x through the filter from rest into a new slice.
 func (q biquad) filter(x []float64) []float64 {
 	y := make([]float64, len(x))
-	var x1, x2, y1, y2 float64
-	for i, v := range x {
-		o := q.b0*v + q.b1*x1 + q.b2*x2 - q.a1*y1 - q.a2*y2
-		x2, x1, y2, y1 = x1, v, y1, o
-		y[i] = o
-	}
+	f := iir.Filter{Coeffs: q.Coeffs}
+	f.Process(y, x)
 	return y
 }
 

@@ -3,7 +3,6 @@ package engine
 import (
 	"context"
 	"math"
-	"math/cmplx"
 	"math/rand/v2"
 	"sync"
 	"sync/atomic"
@@ -11,61 +10,42 @@ import (
 	"time"
 
 	"tonetrace/audio"
+	iir "tonetrace/dsp/biquad"
 )
 
 // biquad is an RBJ cookbook filter (W3C Audio EQ Cookbook, REFERENCES.md
-// §7 [S]) in direct form I, normalised by a0.
+// §7 [S]) in direct form I, normalised by a0, designed and run by package
+// dsp/biquad; sections may be chained in cascade.
 type biquad struct {
 	b0, b1, b2, a1, a2 float64
-	x1, x2, y1, y2     float64
-	next               *biquad // a further section in cascade, or nil
+	st                 iir.Filter // the running section (direct form I memory)
+	next               *biquad    // a further section in cascade, or nil
 }
 
-// Cookbook filter types.
+// Cookbook filter types, as the ints the tests' tables hold.
 const (
-	bqLowpass = iota
-	bqNotch
-	bqPeaking
-	bqHighpass
-	bqAllpass
-	bqBandpass
+	bqLowpass  = int(iir.LowPass)
+	bqNotch    = int(iir.Notch)
+	bqPeaking  = int(iir.Peaking)
+	bqHighpass = int(iir.HighPass)
+	bqAllpass  = int(iir.AllPass)
+	bqBandpass = int(iir.BandPass)
 )
 
 // newBiquad returns the cookbook filter of the given type at f0 Hz with
 // quality q (and gain in dB for the peaking filter) at rate.
 func newBiquad(kind int, f0, q, gainDB, rate float64) *biquad {
-	w0 := 2 * math.Pi * f0 / rate
-	c, s := math.Cos(w0), math.Sin(w0)
-	alpha := s / (2 * q)
-	A := math.Pow(10, gainDB/40)
-	var b0, b1, b2, a0, a1, a2 float64
-	switch kind {
-	case bqLowpass:
-		b0, b1, b2 = (1-c)/2, 1-c, (1-c)/2
-		a0, a1, a2 = 1+alpha, -2*c, 1-alpha
-	case bqHighpass:
-		b0, b1, b2 = (1+c)/2, -(1 + c), (1+c)/2
-		a0, a1, a2 = 1+alpha, -2*c, 1-alpha
-	case bqBandpass:
-		b0, b1, b2 = alpha, 0, -alpha
-		a0, a1, a2 = 1+alpha, -2*c, 1-alpha
-	case bqNotch:
-		b0, b1, b2 = 1, -2*c, 1
-		a0, a1, a2 = 1+alpha, -2*c, 1-alpha
-	case bqAllpass:
-		b0, b1, b2 = 1-alpha, -2*c, 1+alpha
-		a0, a1, a2 = 1+alpha, -2*c, 1-alpha
-	case bqPeaking:
-		b0, b1, b2 = 1+alpha*A, -2*c, 1-alpha*A
-		a0, a1, a2 = 1+alpha/A, -2*c, 1-alpha/A
-	}
-	return &biquad{b0: b0 / a0, b1: b1 / a0, b2: b2 / a0, a1: a1 / a0, a2: a2 / a0}
+	c := iir.Design(iir.Kind(kind), f0, q, gainDB, rate)
+	return &biquad{b0: c.B0, b1: c.B1, b2: c.B2, a1: c.A1, a2: c.A2, st: iir.Filter{Coeffs: c}}
+}
+
+// coeffs returns the section's coefficients.
+func (q *biquad) coeffs() iir.Coeffs {
+	return iir.Coeffs{B0: q.b0, B1: q.b1, B2: q.b2, A1: q.a1, A2: q.a2}
 }
 
 func (q *biquad) process(x float64) float64 {
-	y := q.b0*x + q.b1*q.x1 + q.b2*q.x2 - q.a1*q.y1 - q.a2*q.y2
-	q.x2, q.x1 = q.x1, x
-	q.y2, q.y1 = q.y1, y
+	y := q.st.Step(x)
 	if q.next != nil {
 		return q.next.process(y)
 	}
@@ -83,14 +63,11 @@ func cascade(s ...*biquad) *biquad {
 // response returns the digital response H(e^{jω}) at f Hz (REFERENCES.md
 // §7: Σb_k e^{−jkω} / Σa_k e^{−jkω}).
 func (q *biquad) response(f, rate float64) complex128 {
-	z1 := cmplx.Rect(1, -2*math.Pi*f/rate)
-	z2 := z1 * z1
-	num := complex(q.b0, 0) + complex(q.b1, 0)*z1 + complex(q.b2, 0)*z2
-	den := 1 + complex(q.a1, 0)*z1 + complex(q.a2, 0)*z2
+	h := q.coeffs().Response(f, rate)
 	if q.next != nil {
-		return num / den * q.next.response(f, rate)
+		return h * q.next.response(f, rate)
 	}
-	return num / den
+	return h
 }
 
 // faults are the defects a fakeDev can inject.

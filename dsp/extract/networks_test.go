@@ -5,6 +5,7 @@ import (
 	"math/cmplx"
 	"math/rand/v2"
 
+	iir "tonetrace/dsp/biquad"
 	"tonetrace/dsp/trace"
 )
 
@@ -183,57 +184,47 @@ func crossingOf(h func(float64) complex128, level, lo, hi float64) float64 {
 }
 
 // Digital Audio EQ Cookbook biquads (W3C Working Group Note 2021, after
-// R. Bristow-Johnson) [S]: w0 = 2πf0/fs, c = cos w0, s = sin w0,
-// A = 10^(dBgain/40), α = s/(2Q). The rows "lpf", "hpf", "bpf" (0 dB
-// peak), "notch" and "peaking" are the table of REFERENCES.md §7;
-// "lowshelf" and "highshelf" are the Cookbook's shelving filters, which §7
-// does not tabulate. Coefficients are returned normalised to a0 = 1.
+// R. Bristow-Johnson) [S], designed by package dsp/biquad: w0 = 2πf0/fs,
+// c = cos w0, s = sin w0, A = 10^(dBgain/40), α = s/(2Q). The rows "lpf",
+// "hpf", "bpf" (0 dB peak), "notch" and "peaking" are the table of
+// REFERENCES.md §7; "lowshelf" and "highshelf" are the Cookbook's shelving
+// filters, which §7 does not tabulate. Coefficients are returned
+// normalised to a0 = 1.
 func cookbookCoeffs(kind string, f0, dBgain, q, fs float64) (b, a [3]float64) {
-	w0 := 2 * math.Pi * f0 / fs
-	c, s := math.Cos(w0), math.Sin(w0)
-	A := math.Pow(10, dBgain/40)
-	alpha := s / (2 * q)
-	k := 2 * math.Sqrt(A) * alpha
+	c := cookbookDesign(kind, f0, dBgain, q, fs)
+	return [3]float64{c.B0, c.B1, c.B2}, [3]float64{1, c.A1, c.A2}
+}
+
+// cookbookDesign maps this file's filter names to package biquad's kinds.
+func cookbookDesign(kind string, f0, dBgain, q, fs float64) iir.Coeffs {
+	var k iir.Kind
 	switch kind {
 	case "lpf":
-		b, a = [3]float64{(1 - c) / 2, 1 - c, (1 - c) / 2}, [3]float64{1 + alpha, -2 * c, 1 - alpha}
+		k = iir.LowPass
 	case "hpf":
-		b, a = [3]float64{(1 + c) / 2, -(1 + c), (1 + c) / 2}, [3]float64{1 + alpha, -2 * c, 1 - alpha}
+		k = iir.HighPass
 	case "bpf":
-		b, a = [3]float64{alpha, 0, -alpha}, [3]float64{1 + alpha, -2 * c, 1 - alpha}
+		k = iir.BandPass
 	case "notch":
-		b, a = [3]float64{1, -2 * c, 1}, [3]float64{1 + alpha, -2 * c, 1 - alpha}
+		k = iir.Notch
 	case "peaking":
-		b, a = [3]float64{1 + alpha*A, -2 * c, 1 - alpha*A}, [3]float64{1 + alpha/A, -2 * c, 1 - alpha/A}
+		k = iir.Peaking
 	case "lowshelf":
-		b = [3]float64{A * ((A + 1) - (A-1)*c + k), 2 * A * ((A - 1) - (A+1)*c), A * ((A + 1) - (A-1)*c - k)}
-		a = [3]float64{(A + 1) + (A-1)*c + k, -2 * ((A - 1) + (A+1)*c), (A + 1) + (A-1)*c - k}
+		k = iir.LowShelf
 	case "highshelf":
-		b = [3]float64{A * ((A + 1) + (A-1)*c + k), -2 * A * ((A - 1) + (A+1)*c), A * ((A + 1) + (A-1)*c - k)}
-		a = [3]float64{(A + 1) - (A-1)*c + k, 2 * ((A - 1) - (A+1)*c), (A + 1) - (A-1)*c - k}
+		k = iir.HighShelf
 	default:
 		panic("cookbookCoeffs: unknown kind " + kind)
 	}
-	a0 := a[0]
-	for i := range 3 {
-		b[i] /= a0
-		a[i] /= a0
-	}
-	return b, a
+	return iir.Design(k, f0, q, dBgain, fs)
 }
 
 // cookbookDigital returns the frequency response of a Cookbook biquad,
 // H(e^{jω}) = Σb_k e^{−jkω} / Σa_k e^{−jkω}, ω = 2πf/fs (REFERENCES.md
 // §7), as a function of frequency in hertz.
 func cookbookDigital(kind string, f0, dBgain, q, fs float64) func(float64) complex128 {
-	b, a := cookbookCoeffs(kind, f0, dBgain, q, fs)
-	return func(f float64) complex128 {
-		z1 := cmplx.Exp(complex(0, -2*math.Pi*f/fs))
-		z2 := z1 * z1
-		num := complex(b[0], 0) + complex(b[1], 0)*z1 + complex(b[2], 0)*z2
-		den := complex(a[0], 0) + complex(a[1], 0)*z1 + complex(a[2], 0)*z2
-		return num / den
-	}
+	c := cookbookDesign(kind, f0, dBgain, q, fs)
+	return func(f float64) complex128 { return c.Response(f, fs) }
 }
 
 // bandGrid returns the centres 10^(k/ppd) Hz of a trace banded at ppd

@@ -4,36 +4,38 @@ import (
 	"math"
 	"math/cmplx"
 	"math/rand/v2"
+
+	iir "tonetrace/dsp/biquad"
 )
 
 // biquad is a second-order section from the W3C Audio EQ Cookbook (2021,
-// after R. Bristow-Johnson; REFERENCES §7, [S]), computed here in the test
-// so the analyzer is checked against an independent filter.
+// after R. Bristow-Johnson; REFERENCES §7, [S]), designed by package
+// dsp/biquad (independent of the analyzer) and held as b and a with a0 = 1.
 type biquad struct{ b, a [3]float64 }
 
 // rbj returns the cookbook section of the given type at f0 Hz, quality q
 // and (for "peak") gain in dB, for sample rate fs:
 // w0 = 2πf0/fs, c = cos w0, s = sin w0, A = 10^(gain/40), α = s/(2Q).
 func rbj(kind string, fs, f0, q, gainDB float64) biquad {
-	w0 := 2 * math.Pi * f0 / fs
-	c, s := math.Cos(w0), math.Sin(w0)
-	alpha := s / (2 * q)
-	A := math.Pow(10, gainDB/40)
+	var k iir.Kind
 	switch kind {
 	case "lpf":
-		return biquad{[3]float64{(1 - c) / 2, 1 - c, (1 - c) / 2}, [3]float64{1 + alpha, -2 * c, 1 - alpha}}
+		k = iir.LowPass
 	case "hpf":
-		return biquad{[3]float64{(1 + c) / 2, -(1 + c), (1 + c) / 2}, [3]float64{1 + alpha, -2 * c, 1 - alpha}}
+		k = iir.HighPass
 	case "bpf":
-		return biquad{[3]float64{alpha, 0, -alpha}, [3]float64{1 + alpha, -2 * c, 1 - alpha}}
+		k = iir.BandPass
 	case "notch":
-		return biquad{[3]float64{1, -2 * c, 1}, [3]float64{1 + alpha, -2 * c, 1 - alpha}}
+		k = iir.Notch
 	case "apf":
-		return biquad{[3]float64{1 - alpha, -2 * c, 1 + alpha}, [3]float64{1 + alpha, -2 * c, 1 - alpha}}
+		k = iir.AllPass
 	case "peak":
-		return biquad{[3]float64{1 + alpha*A, -2 * c, 1 - alpha*A}, [3]float64{1 + alpha/A, -2 * c, 1 - alpha/A}}
+		k = iir.Peaking
+	default:
+		panic("unknown biquad " + kind)
 	}
-	panic("unknown biquad " + kind)
+	c := iir.Design(k, f0, q, gainDB, fs)
+	return biquad{[3]float64{c.B0, c.B1, c.B2}, [3]float64{1, c.A1, c.A2}}
 }
 
 // normalised returns the section with a0 = 1.
@@ -46,28 +48,22 @@ func (q biquad) normalised() biquad {
 	return q
 }
 
+// coeffs returns the section, normalised, as package biquad's Coeffs.
+func (q biquad) coeffs() iir.Coeffs {
+	q = q.normalised()
+	return iir.Coeffs{B0: q.b[0], B1: q.b[1], B2: q.b[2], A1: q.a[1], A2: q.a[2]}
+}
+
 // response is H(e^{jω}) = Σb_k e^{−jkω} / Σa_k e^{−jkω} at f Hz
 // (REFERENCES §7).
-func (q biquad) response(f, fs float64) complex128 {
-	w := 2 * math.Pi * f / fs
-	z1, z2 := cmplx.Rect(1, -w), cmplx.Rect(1, -2*w)
-	num := complex(q.b[0], 0) + complex(q.b[1], 0)*z1 + complex(q.b[2], 0)*z2
-	den := complex(q.a[0], 0) + complex(q.a[1], 0)*z1 + complex(q.a[2], 0)*z2
-	return num / den
-}
+func (q biquad) response(f, fs float64) complex128 { return q.coeffs().Response(f, fs) }
 
 // filter runs the section over x (direct form I, zero initial state) into
 // a new slice.
 func (q biquad) filter(x []float64) []float64 {
-	q = q.normalised()
 	y := make([]float64, len(x))
-	var x1, x2, y1, y2 float64
-	for i, v := range x {
-		o := q.b[0]*v + q.b[1]*x1 + q.b[2]*x2 - q.a[1]*y1 - q.a[2]*y2
-		x2, x1 = x1, v
-		y2, y1 = y1, o
-		y[i] = o
-	}
+	f := iir.Filter{Coeffs: q.coeffs()}
+	f.Process(y, x)
 	return y
 }
 
