@@ -972,7 +972,7 @@ func (a *app) fit(fs *pflag.FlagSet, netPath, measPath string, free []string, as
 // formatPart writes a component value with its unit and the given
 // number of significant digits: "4.7 kΩ", "220 nF", "10 mH".
 func formatPart(k netlist.Kind, v float64, digits int) string {
-	unit := map[netlist.Kind]string{netlist.Resistor: "Ω", netlist.Capacitor: "F", netlist.Inductor: "H"}[k]
+	unit := k.Unit()
 	if v == 0 || math.IsNaN(v) || math.IsInf(v, 0) {
 		return strconv.FormatFloat(v, 'g', digits, 64) + " " + unit
 	}
@@ -1618,7 +1618,7 @@ func (l *liveSession) run(ctx context.Context, mode tui.Mode, toneHz float64) {
 				l.send(tui.ProgressMsg{Done: e.Done, Total: e.Total, Freq: e.Freq, Sweeps: e.Sweep})
 			}
 		case engine.StatusEvent:
-			l.send(tui.StatusMsg{Status: screenStatus(e.Status)})
+			l.send(tui.StatusMsg{Status: screenStatus(e.Status, l.stream.Rate())})
 		}
 	}
 	err := <-errc
@@ -1628,16 +1628,13 @@ func (l *liveSession) run(ctx context.Context, mode tui.Mode, toneHz float64) {
 	}
 }
 
-// screenStatus turns the monitors' status into the screen's.
-func screenStatus(st engine.Status) tui.Status {
+// screenStatus turns the monitors' status into the screen's; rate is the
+// stream's sample rate in hertz.
+func screenStatus(st engine.Status, rate int) tui.Status {
 	out := tui.Status{LatencyMs: math.NaN(), SNRdB: math.NaN(), DriftPPM: st.DriftPPM,
 		Dropouts: st.Stats.Dropped + st.Stats.Underruns}
-	if st.LatencyKnown && st.Stats.PlayFrames > 0 {
-		// Frames to milliseconds at the stream's rate: the status does not
-		// carry the rate, so use the capture index and audio time.
-		if st.Seconds > 0 && st.Frame > 0 {
-			out.LatencyMs = 1000 * float64(st.Latency) * st.Seconds / float64(st.Frame)
-		}
+	if st.LatencyKnown {
+		out.LatencyMs = 1000 * float64(st.Latency) / float64(rate)
 	}
 	for _, in := range st.Inputs {
 		if in.Role == "" {
@@ -1770,7 +1767,7 @@ func (l *liveSession) Tunables() []tui.Tunable {
 	}
 	var out []tui.Tunable
 	for _, e := range l.bench.Netlist().Elements {
-		unit := map[netlist.Kind]string{netlist.Resistor: "Ω", netlist.Capacitor: "F", netlist.Inductor: "H"}[e.Kind]
+		unit := e.Kind.Unit()
 		if unit == "" {
 			continue
 		}

@@ -119,6 +119,20 @@ const (
 	OpAmp                 // U: out in+ in−, ideal (infinite gain); no value
 )
 
+// Unit returns the symbol of the unit of the kind's value: "Ω", "F" or
+// "H"; "" for a gain (E) or no value (U).
+func (k Kind) Unit() string {
+	switch k {
+	case Resistor:
+		return "Ω"
+	case Capacitor:
+		return "F"
+	case Inductor:
+		return "H"
+	}
+	return ""
+}
+
 // String returns the element letter of the kind: "R", "C", "L", "E", "U".
 func (k Kind) String() string {
 	switch k {

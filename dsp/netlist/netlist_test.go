@@ -153,3 +153,13 @@ L1 amp out 10mH
 		t.Errorf("L1 = %+v", e)
 	}
 }
+
+// TestKindUnit checks the SI unit symbols of element values (SI Brochure,
+// 9th ed., Table 4, from memory).
+func TestKindUnit(t *testing.T) {
+	for k, want := range map[Kind]string{Resistor: "Ω", Capacitor: "F", Inductor: "H", VCVS: "", OpAmp: ""} {
+		if got := k.Unit(); got != want {
+			t.Errorf("%v.Unit() = %q, want %q", k, got, want)
+		}
+	}
+}
