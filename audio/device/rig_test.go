@@ -15,6 +15,8 @@ import (
 	"testing"
 	"time"
 
+	"gonum.org/v1/gonum/dsp/fourier"
+
 	"tonetrace/audio"
 )
 
@@ -287,6 +289,7 @@ func rigLoop(t *testing.T, cfg Config) (hole string) {
 	if maxRel > f32Rel {
 		t.Errorf("reference input differs from the output by up to %.3g relative; want float32 rounding (%.3g) at most", maxRel, f32Rel)
 	}
+	loopbackFlat(t, in[1][lag:lag+rigRate/10], want[:rigRate/10])
 	for i := int(at); i < lag-2; i++ { // silence before the stimulus (the fade plays on silence)
 		if in[1][i] != 0 {
 			t.Fatalf("reference input frame %d = %v before the stimulus arrived", i, in[1][i])
@@ -330,6 +333,31 @@ func rigLoop(t *testing.T, cfg Config) (hole string) {
 		t.Fatalf("Close: %v", err)
 	}
 	return ""
+}
+
+// loopbackFlat checks that the straight path from output 2 to input 2 is
+// flat: the ratio of the spectra of what came back (got) and what was
+// played (want), over the aligned noise burst, bin by bin from 50 Hz to
+// 15 kHz, within 0.01 dB and 0.1° (the limit; a loopback lead is
+// a wire, so anything more is the sound server or our indexing).
+func loopbackFlat(t *testing.T, got, want []float64) {
+	t.Helper()
+	const tolDB, tolDeg = 0.01, 0.1
+	fft := fourier.NewFFT(len(want))
+	g, w := fft.Coefficients(nil, got), fft.Coefficients(nil, want)
+	binHz := float64(rigRate) / float64(len(want))
+	var worstDB, worstDeg float64
+	bins := 0
+	for k := int(math.Ceil(50 / binHz)); float64(k)*binHz <= 15000; k++ {
+		h := g[k] / w[k]
+		worstDB = max(worstDB, math.Abs(20*math.Log10(cmplx.Abs(h))))
+		worstDeg = max(worstDeg, math.Abs(cmplx.Phase(h)*180/math.Pi))
+		bins++
+	}
+	t.Logf("loopback input 2 / output 2 over %d bins 50 Hz–15 kHz: worst %.2g dB, %.2g°", bins, worstDB, worstDeg)
+	if worstDB > tolDB || worstDeg > tolDeg {
+		t.Errorf("the loopback path is not flat: worst %.4f dB, %.3f° over 50 Hz–15 kHz; want within %g dB, %g°", worstDB, worstDeg, tolDB, tolDeg)
+	}
 }
 
 // TestPulseRigSeparate opens the rig's output and input as two devices
