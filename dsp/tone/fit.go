@@ -96,9 +96,24 @@ type Estimate struct {
 	// N is the number of samples fitted.
 	N int
 	// Params is the number of fitted parameters: 1 for DC, 2 per fitted
-	// harmonic including the fundamental, and 1 more when the frequency was
-	// estimated. The residual has N − Params degrees of freedom.
+	// harmonic including the fundamental, 2 per interferer of
+	// [Estimator.FitAmong], and 1 more when the frequency was estimated.
+	// The residual has N − Params degrees of freedom.
 	Params int
+	// AmpVarFactor and PhaseVarFactor are the variances of the amplitude
+	// and the phase relative to the resolved-tone bounds 2σ²/N and
+	// 1/(N·η), when the fit knows them to differ: [Estimator.FitAmong] sets
+	// them from its covariance, and they exceed 1 when an interferer lies
+	// near the tone. Zero means 1.
+	AmpVarFactor, PhaseVarFactor float64
+}
+
+// varFactor returns f, or 1 for the zero value.
+func varFactor(f float64) float64 {
+	if f == 0 {
+		return 1
+	}
+	return f
 }
 
 // Amplitude returns the peak amplitude |Phasor| of the fundamental.
@@ -110,18 +125,19 @@ func (e Estimate) Phase() float64 { return cmplx.Phase(e.Phasor) }
 
 // AmplitudeU returns the standard uncertainty of the amplitude,
 // σ·sqrt(2/N) with σ = ResidualRMS: the square root of the Cramér–Rao
-// bound var Â ≥ 2σ²/N, which the fit attains in white Gaussian noise.
+// bound var Â ≥ 2σ²/N, which the fit attains in white Gaussian noise;
+// times sqrt(AmpVarFactor) when that is set.
 func (e Estimate) AmplitudeU() float64 {
-	return e.ResidualRMS * math.Sqrt(2/float64(e.N))
+	return e.ResidualRMS * math.Sqrt(2*varFactor(e.AmpVarFactor)/float64(e.N))
 }
 
 // PhaseU returns the standard uncertainty of the phase in radians at a
 // known frequency, sqrt(1/(N·η)) with η = A²/(2σ²): the square root of
 // the Cramér–Rao bound for the phase. With the frequency known the bound is
-// the same wherever the phase is referred to. It is +Inf for a zero
-// amplitude.
+// the same wherever the phase is referred to; times sqrt(PhaseVarFactor)
+// when that is set. It is +Inf for a zero amplitude.
 func (e Estimate) PhaseU() float64 {
-	return e.AmplitudeU() / e.Amplitude()
+	return e.ResidualRMS * math.Sqrt(2*varFactor(e.PhaseVarFactor)/float64(e.N)) / e.Amplitude()
 }
 
 // Estimator fits tones sampled at one rate. Create it once (with
