@@ -1278,6 +1278,7 @@ func (a *app) sweep(ctx context.Context, fs *pflag.FlagSet, out string, sim simO
 	for _, p := range res.Problems {
 		fmt.Fprintf(a.stderr, "%s: sweep: problem: %s\n", programName, p)
 	}
+	a.reportInvalidPoints(res.Points)
 	switch {
 	case runErr != nil:
 		return fmt.Errorf("%w: %v; the %d points measured before that are in %s", errInvalidMeasurement, runErr, len(t.Points), out)
@@ -1285,6 +1286,30 @@ func (a *app) sweep(ctx context.Context, fs *pflag.FlagSet, out string, sim simO
 		return fmt.Errorf("%w: %d of %d points are invalid (see the problems above); fix the wiring and measure again", errInvalidMeasurement, invalid, len(t.Points))
 	}
 	return nil
+}
+
+// maxInvalidShown is how many invalid points a sweep explains one by one.
+const maxInvalidShown = 5
+
+// reportInvalidPoints says on stderr why each invalid point (up to
+// maxInvalidShown, lowest frequency first) is invalid: its first problem.
+func (a *app) reportInvalidPoints(points []engine.PointEvent) {
+	var bad []engine.PointEvent
+	for _, p := range points {
+		if !p.Valid && len(p.Problems) > 0 {
+			bad = append(bad, p)
+		}
+	}
+	sort.Slice(bad, func(i, j int) bool { return bad[i].Point.Freq < bad[j].Point.Freq })
+	for i, p := range bad {
+		if i == maxInvalidShown {
+			fmt.Fprintf(a.stderr, "%s: sweep: … and %d more invalid points\n", programName, len(bad)-i)
+			break
+		}
+		pr := p.Problems[0]
+		fmt.Fprintf(a.stderr, "%s: sweep: invalid at %s Hz: %s; %s\n", programName,
+			strconv.FormatFloat(p.Point.Freq, 'g', 6, 64), pr.Message, pr.Fix)
+	}
 }
 
 // progressPrinter shows a sweep's progress on stderr: a bar redrawn in

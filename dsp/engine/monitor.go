@@ -28,6 +28,12 @@ const (
 	driftMinFreq = 100.0
 	// glitchSub is the sub-block length of the residual-burst check.
 	glitchSub = 32
+	// humWander is how far, in Hz, a measured mains frequency may lie from
+	// 50 or 60 Hz (grids hold it within a few tenths; more is not mains).
+	humWander = 1.0
+	// humMinCycles is the fewest mains cycles a block needs to measure the
+	// mains frequency.
+	humMinCycles = 5
 )
 
 // monitors holds the state of the wiring and signal checks.
@@ -39,6 +45,10 @@ type monitors struct {
 	hum     []float64 // latest hum amplitude (peak, full-scale units)
 	humFreq []float64
 	humPrev []float64 // hum frequency found by the previous residual check, 0 none
+	// humBase is the mains fundamental measured on the input while its
+	// hum stands above HumLimitDBFS (0: none); humBuf holds its lines.
+	humBase []float64
+	humBuf  [][humLines]float64
 
 	// Clock drift, weighted mean with forgetting.
 	sw, swp          float64
@@ -58,6 +68,7 @@ func (m *monitors) init(r *run) {
 	m.r = r
 	n := len(r.keep)
 	m.noise, m.hum, m.humFreq, m.humPrev = nanSlice(n), nanSlice(n), nanSlice(n), make([]float64, n)
+	m.humBase, m.humBuf = make([]float64, n), make([][humLines]float64, n)
 	m.driftPPM, m.driftU = math.NaN(), math.NaN()
 }
 
@@ -99,29 +110,96 @@ func (m *monitors) quietWindow(k int, x []float64) {
 		ss += v * v
 	}
 	m.noise[k] = dbfs(math.Sqrt(ss / float64(len(x))))
-	a, f := m.humIn(x, nil)
+	a, f, partial := m.humIn(x, nil)
 	m.hum[k], m.humFreq[k] = a, f
+	m.trackHum(k, x, a, f, partial, true)
 	if a >= math.Pow(10, HumLimitDBFS/20) {
 		m.r.raise(m.humProblem(k, a, f))
 	}
 }
 
+// humLines is how many mains harmonics, the fundamental included, the
+// stepped sine fits out of its blocks once an input carries hum.
+const humLines = 5
+
+// trackHum keeps slot k's mains fundamental from a block x (quiet, or a
+// fit's residual, which keeps the hum) whose largest visible mains line is
+// a at f. Above HumLimitDBFS it keeps the mains family (50 or 60 Hz) it
+// first saw; on the quiet window, with nothing else playing, it measures
+// the fundamental's actual frequency (mains wanders by a fraction of a
+// hertz) with the four-parameter fit, which fits the harmonics jointly.
+// (A residual is no place for that: the network's settling transients
+// pull the frequency off by tenths of a hertz.) Below the limit it
+// forgets the hum, unless some mains line was hidden from the check
+// (partial): near the stimulus the line may be the very hum to fit out.
+func (m *monitors) trackHum(k int, x []float64, a, f float64, partial, quiet bool) {
+	if math.IsNaN(f) || a < math.Pow(10, HumLimitDBFS/20) {
+		if !partial {
+			m.humBase[k] = 0
+		}
+		return
+	}
+	if m.humBase[k] != 0 && !quiet {
+		return
+	}
+	nominal := 50.0
+	if math.Mod(f, 60) == 0 {
+		nominal = 60
+	}
+	m.humBase[k] = nominal
+	if quiet && tone.Cycles(len(x), nominal, m.r.fr) >= humMinCycles {
+		if fe, err := m.r.est.FitFreq(x, nominal); err == nil && math.Abs(fe.Freq-nominal) <= humWander {
+			m.humBase[k] = fe.Freq
+		}
+	}
+}
+
+// humMains returns the mains lines to fit out of slot k's blocks: the
+// first humLines harmonics of its measured mains frequency, or none while
+// the input is free of hum. The slice is reused by the next call.
+func (m *monitors) humMains(k int) []float64 {
+	if k >= len(m.humBase) || m.humBase[k] == 0 {
+		return nil
+	}
+	b := &m.humBuf[k]
+	for i := range b {
+		b[i] = float64(i+1) * m.humBase[k]
+	}
+	return b[:]
+}
+
+// humAny returns the mains lines of the first input that carries hum, or
+// none.
+func (m *monitors) humAny() []float64 {
+	for k := range m.humBase {
+		if l := m.humMains(k); l != nil {
+			return l
+		}
+	}
+	return nil
+}
+
 // humIn returns the largest mains component of x (peak amplitude by
 // Goertzel, 2|X|/N) and its frequency, skipping frequencies the block
 // cannot resolve (fewer than 3 cycles) or that lie within 2 bins of a
-// frequency in avoid.
-func (m *monitors) humIn(x []float64, avoid []float64) (amp, freq float64) {
+// frequency in avoid; partial reports that it skipped one.
+func (m *monitors) humIn(x []float64, avoid []float64) (amp, freq float64, partial bool) {
 	fr := m.r.fr
 	n := float64(len(x))
 	bin := fr / n
 	freq = math.NaN()
 next:
 	for _, h := range mainsFreqs {
-		if h >= fr/2 || n < 3*fr/h {
+		if h >= fr/2 {
+			continue
+		}
+		if n < 3*fr/h {
+			partial = true
 			continue
 		}
 		for _, a := range avoid {
 			if math.Abs(h-a) < 2*bin {
+				partial = true
 				continue next
 			}
 		}
@@ -129,7 +207,7 @@ next:
 			amp, freq = a, h
 		}
 	}
-	return amp, freq
+	return amp, freq, partial
 }
 
 // residualHum checks the residual of a fit on slot k for hum; hum is
@@ -137,7 +215,8 @@ next:
 // consecutive checks (a single block may hold a transient). avoid lists
 // the stimulus frequencies (and harmonics) the residual was cleaned of.
 func (m *monitors) residualHum(k int, res []float64, avoid []float64) {
-	a, f := m.humIn(res, avoid)
+	a, f, partial := m.humIn(res, avoid)
+	m.trackHum(k, res, a, f, partial, false)
 	if math.IsNaN(f) {
 		return
 	}

@@ -2,6 +2,7 @@ package engine
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"math"
 	"math/cmplx"
@@ -174,8 +175,29 @@ func (m *stepMode) integFrames(f float64) (n, least int) {
 			}
 		}
 	}
+	// Mains hum on an input: long enough for the joint fit (see fit) to
+	// tell the tone from the hum lines — humMinCycles of the mains, and
+	// humSepBins DFT bins between f and the nearest line — up to
+	// MaxIntegrate.
+	if lines := m.mon().humAny(); len(lines) > 0 {
+		need := humMinCycles / lines[0]
+		for _, l := range lines {
+			need = max(need, humSepBins/math.Abs(f-l))
+		}
+		need = min(need, c.MaxIntegrate.Seconds())
+		if need > float64(n)/fr {
+			if l, err := tone.CycleLength(f, fr, need); err == nil {
+				n = l
+			}
+		}
+	}
 	return n, least
 }
+
+// humSepBins is how many DFT bins of the integration block a stepped-sine
+// frequency should lie from a mains hum line: two keep the joint fit's
+// variance within a few percent of the resolved-tone bound.
+const humSepBins = 2
 
 // hasNext reports whether another step can be scheduled now.
 func (m *stepMode) hasNext() bool {
@@ -542,6 +564,25 @@ func (m *stepMode) partial() {
 	m.r.publish(tr, valid, false)
 }
 
+// fit estimates the tone at f in block x of history slot k (0 response,
+// 1 reference). While the input carries mains hum, the hum's lines are
+// fitted jointly (tone.Estimator.FitAmong), so hum near f neither pulls
+// the point off nor hides in its uncertainty; a point too close to a hum
+// line to tell them apart is fitted plainly and reported invalid.
+func (m *stepMode) fit(x []float64, f float64, k int, bad func(Problem)) (tone.Estimate, error) {
+	r := m.r
+	lines := m.mon().humMains(k)
+	e, err := r.est.FitAmong(x, f, lines)
+	if err == nil || len(lines) == 0 || !errors.Is(err, tone.ErrIllConditioned) {
+		return e, err
+	}
+	in, role := m.mon().input(k)
+	bad(Problem{Code: CodeHum, Input: in,
+		Message: fmt.Sprintf("the point at %.4g Hz lies too close to the mains hum on %s (%.4g Hz and its harmonics) to tell them apart", f, inputName(in, role), lines[0]),
+		Fix:     "cure the hum (one ground point, shielded leads) or measure away from the mains harmonics"})
+	return r.est.Fit(x, f)
+}
+
 // point estimates one point and runs the per-point monitors.
 func (m *stepMode) point(p stepSched, c0 int64) PointEvent {
 	r := m.r
@@ -574,10 +615,10 @@ func (m *stepMode) point(p stepSched, c0 int64) PointEvent {
 		bad(Problem{Code: CodeDropout, Message: fmt.Sprintf("frames were lost during the point at %.4g Hz", f), Fix: dropFix})
 		return ev
 	}
-	eResp, err := r.est.Fit(resp, f)
+	eResp, err := m.fit(resp, f, 0, bad)
 	var eRef tone.Estimate
 	if err == nil && ref != nil {
-		eRef, err = r.est.Fit(ref, f)
+		eRef, err = m.fit(ref, f, 1, bad)
 	} else if ref == nil {
 		eRef = tone.Estimate{Freq: f, Phasor: stim, N: n, SNR: math.Inf(1), THD: math.NaN()}
 	}
