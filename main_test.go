@@ -762,57 +762,72 @@ func TestSweepSim(t *testing.T) {
 
 // TestSweepSimHum measures the virtual bench with mains hum on the
 // response lead (50 Hz at −30 dBFS with harmonics, 10 dB below the
-// stimulus) and without it. The stepped sine fits the hum lines out of its
-// blocks, so every point must agree with the hum-free sweep within its
-// combined uncertainty (4 standard uncertainties, plus 0.001 dB and 0.01°
-// for the two runs' different block lengths), except the point on a hum
-// line (100 Hz, the 2nd harmonic), which must be marked invalid with the
-// reason on stderr. Without the joint fit the 50.1 Hz point was 1.8 dB
-// off with a reported uncertainty of 0.003 dB.
+// stimulus) and without it, by both methods. Both fit the hum lines out,
+// so every point must agree with the hum-free sweep within its combined
+// uncertainty (4 standard uncertainties, plus 0.001 dB and 0.01° for the
+// two runs' different block lengths). The stepped sine must mark the
+// point on a hum line (100 Hz, the 2nd harmonic) invalid with the reason
+// on stderr; the multitone keeps its tones clear of the lines. Without the
+// joint fits the stepped 50.1 Hz point was 1.8 dB off with a reported
+// uncertainty of 0.003 dB, and the multitone's 49.8 Hz tone 14 dB off.
 func TestSweepSimHum(t *testing.T) {
-	dir := t.TempDir()
-	clean, hum := filepath.Join(dir, "clean.csv"), filepath.Join(dir, "hum.csv")
-	if code, _, stderr := runCLI(t, "sweep", "--sim", "-o", clean); code != exitOK {
-		t.Fatalf("clean sweep: exit %d: %s", code, stderr)
+	for _, c := range []struct {
+		method  string
+		code    int
+		invalid string // invalid_points_hz
+	}{
+		{"steps", exitInvalid, "100"},
+		{"multitone", exitOK, ""},
+	} {
+		t.Run(c.method, func(t *testing.T) {
+			dir := t.TempDir()
+			clean, hum := filepath.Join(dir, "clean.csv"), filepath.Join(dir, "hum.csv")
+			if code, _, stderr := runCLI(t, "sweep", "--sim", "--method", c.method, "-o", clean); code != exitOK {
+				t.Fatalf("clean sweep: exit %d: %s", code, stderr)
+			}
+			code, _, stderr := runCLI(t, "sweep", "--sim", "--method", c.method, "--sim-fault", "hum", "-o", hum)
+			if code != c.code {
+				t.Errorf("hum sweep: exit %d, want %d:\n%s", code, c.code, stderr)
+			}
+			if c.invalid != "" && !strings.Contains(stderr, "invalid at 100 Hz: the point at 100 Hz lies too close to the mains hum") {
+				t.Errorf("stderr does not say why the 100 Hz point is invalid:\n%s", stderr)
+			}
+			a, err := trace.LoadFile(clean)
+			if err != nil {
+				t.Fatal(err)
+			}
+			b, err := trace.LoadFile(hum)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if len(a.Points) != len(b.Points) {
+				t.Fatalf("%d points with hum, %d without", len(b.Points), len(a.Points))
+			}
+			if v, _ := b.MetaValue("invalid_points_hz"); v != c.invalid {
+				t.Errorf("invalid points %q, want %q", v, c.invalid)
+			}
+			var worstDB, worstDeg, worstSigma float64
+			for i, q := range b.Points {
+				p := a.Points[i]
+				if q.Freq != p.Freq {
+					t.Fatalf("point %d at %g Hz with hum, %g Hz without", i, q.Freq, p.Freq)
+				}
+				if c.invalid != "" && q.Freq == 100 {
+					continue
+				}
+				dDB := math.Abs(q.GainDB() - p.GainDB())
+				dDeg := math.Abs(trace.WrapDeg(q.PhaseDeg() - p.PhaseDeg()))
+				uDB, uDeg := math.Hypot(p.GainU, q.GainU), math.Hypot(p.PhaseU, q.PhaseU)
+				if dDB > 4*uDB+0.001 || dDeg > 4*uDeg+0.01 {
+					t.Errorf("%.4g Hz: with hum %.4f dB %.3f° ± %.4f dB %.3f°, without %.4f dB %.3f° ± %.4f dB %.3f°",
+						q.Freq, q.GainDB(), q.PhaseDeg(), q.GainU, q.PhaseU, p.GainDB(), p.PhaseDeg(), p.GainU, p.PhaseU)
+				}
+				worstDB, worstDeg = max(worstDB, dDB), max(worstDeg, dDeg)
+				worstSigma = max(worstSigma, dDB/uDB)
+			}
+			t.Logf("hum vs hum-free: worst %.4f dB, %.3f° (%.1f combined standard uncertainties in gain)", worstDB, worstDeg, worstSigma)
+		})
 	}
-	code, _, stderr := runCLI(t, "sweep", "--sim", "--sim-fault", "hum", "-o", hum)
-	if code != exitInvalid {
-		t.Errorf("hum sweep: exit %d, want %d (one point on a hum line)", code, exitInvalid)
-	}
-	if !strings.Contains(stderr, "invalid at 100 Hz: the point at 100 Hz lies too close to the mains hum") {
-		t.Errorf("stderr does not say why the 100 Hz point is invalid:\n%s", stderr)
-	}
-	a, err := trace.LoadFile(clean)
-	if err != nil {
-		t.Fatal(err)
-	}
-	b, err := trace.LoadFile(hum)
-	if err != nil {
-		t.Fatal(err)
-	}
-	if len(a.Points) != len(b.Points) {
-		t.Fatalf("%d points with hum, %d without", len(b.Points), len(a.Points))
-	}
-	if v, _ := b.MetaValue("invalid_points_hz"); v != "100" {
-		t.Errorf("invalid points %q, want just 100 Hz", v)
-	}
-	var worstDB, worstDeg, worstSigma float64
-	for i, q := range b.Points {
-		p := a.Points[i]
-		if q.Freq == 100 {
-			continue
-		}
-		dDB := math.Abs(q.GainDB() - p.GainDB())
-		dDeg := math.Abs(trace.WrapDeg(q.PhaseDeg() - p.PhaseDeg()))
-		uDB, uDeg := math.Hypot(p.GainU, q.GainU), math.Hypot(p.PhaseU, q.PhaseU)
-		if dDB > 4*uDB+0.001 || dDeg > 4*uDeg+0.01 {
-			t.Errorf("%.4g Hz: with hum %.4f dB %.3f° ± %.4f dB %.3f°, without %.4f dB %.3f° ± %.4f dB %.3f°",
-				q.Freq, q.GainDB(), q.PhaseDeg(), q.GainU, q.PhaseU, p.GainDB(), p.PhaseDeg(), p.GainU, p.PhaseU)
-		}
-		worstDB, worstDeg = max(worstDB, dDB), max(worstDeg, dDeg)
-		worstSigma = max(worstSigma, dDB/uDB)
-	}
-	t.Logf("hum vs hum-free: worst %.4f dB, %.3f° (%.1f combined standard uncertainties in gain)", worstDB, worstDeg, worstSigma)
 }
 
 // TestSweepSimFaults injects every fault of the virtual bench and checks

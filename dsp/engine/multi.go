@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"math"
 	"math/cmplx"
+	"slices"
 
 	"gonum.org/v1/gonum/dsp/fourier"
 
@@ -52,6 +53,21 @@ type multiMode struct {
 	clipped   bool  // a period of the current average clipped
 	refDead   []int // per tone: periods of the current average with a dead reference
 	wiring    []levelPoint
+	humSet    []float64 // the mains lines the analyzer fits out
+}
+
+// syncHum hands the analyzer the mains lines the monitors currently see,
+// when they changed, so it fits them out of every period (the tones were
+// designed to keep clear of them).
+func (m *multiMode) syncHum() {
+	lines := m.r.mon.humAny()
+	if slices.Equal(lines, m.humSet) {
+		return
+	}
+	if err := m.an.SetInterferers(lines); err != nil {
+		return // a line on a tone: leave the analysis as it was
+	}
+	m.humSet = append(m.humSet[:0], lines...)
 }
 
 func newMultiMode(r *run) (*multiMode, error) {
@@ -59,6 +75,7 @@ func newMultiMode(r *run) (*multiMode, error) {
 	mt, err := multitone.Design(multitone.Options{
 		Rate: r.fr, Period: cfg.Period, From: cfg.From, To: cfg.To, PerDecade: cfg.PerDecade,
 		LevelDBFS: 0, CapDBFS: 0, Reduction: cfg.Reduction,
+		Avoid: multitone.MainsLines(humLines), // so hum can be fitted out
 	})
 	if err != nil {
 		return nil, fmt.Errorf("%w: %w", ErrConfig, err)
@@ -197,6 +214,7 @@ func (m *multiMode) analyzePeriod(j, c0, shift int64) {
 		// but the average it enters is marked invalid.
 		m.clipped = true
 	}
+	m.syncHum()
 	if err := m.an.AnalyzeInto(&m.frame, ref, resp); err != nil && !errors.Is(err, multitone.ErrNoReference) {
 		m.havePrev = false
 		return

@@ -81,6 +81,7 @@ type Analyzer struct {
 	m    *Multitone
 	fft  *fourier.FFT
 	x, y []complex128
+	hum  *interferers // nil: none set
 }
 
 // NewAnalyzer returns an analyzer for periods of m.
@@ -104,7 +105,8 @@ func (a *Analyzer) Analyze(ref, resp []float64) (Frame, error) {
 
 // AnalyzeInto analyses one period of the reference input ref and the
 // response input resp into dst, reusing dst.Tones when it has the
-// capacity; with a reused dst it does not allocate.
+// capacity; with a reused dst it does not allocate. Interferers set with
+// [Analyzer.SetInterferers] are fitted out of both inputs first.
 //
 // ref and resp must each hold exactly Len() samples, in full-scale units;
 // otherwise AnalyzeInto panics. It returns an error wrapping ErrNotFinite
@@ -121,6 +123,10 @@ func (a *Analyzer) AnalyzeInto(dst *Frame, ref, resp []float64) error {
 	}
 	a.fft.Coefficients(a.x, ref)
 	a.fft.Coefficients(a.y, resp)
+	if a.hum != nil {
+		a.hum.remove(a.x, ref)
+		a.hum.remove(a.y, resp)
+	}
 
 	tones := a.m.tones
 	if cap(dst.Tones) < len(tones) {

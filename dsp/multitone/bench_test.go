@@ -9,10 +9,12 @@ import (
 // BenchmarkAnalyzeInto measures one period of both inputs (stereo) at
 // 48 kHz and reports periods per second on one core and the multiple of
 // real time (period duration over analysis time).
+// With hum=5 it also fits five 50 Hz mains lines out of both inputs.
 func BenchmarkAnalyzeInto(b *testing.B) {
-	for _, p := range []int{8192, 16384} {
-		b.Run(fmt.Sprintf("period=%d", p), func(b *testing.B) {
-			m, err := Design(Options{Rate: 48000, Period: p, From: 20, To: 20000, PerDecade: 24, LevelDBFS: -10, CapDBFS: -10})
+	for _, c := range []struct{ p, hum int }{{8192, 0}, {16384, 0}, {16384, 5}} {
+		p := c.p
+		b.Run(fmt.Sprintf("period=%d/hum=%d", p, c.hum), func(b *testing.B) {
+			m, err := Design(Options{Rate: 48000, Period: p, From: 20, To: 20000, PerDecade: 24, LevelDBFS: -10, CapDBFS: -10, Avoid: MainsLines(5)})
 			if err != nil {
 				b.Fatal(err)
 			}
@@ -20,6 +22,13 @@ func BenchmarkAnalyzeInto(b *testing.B) {
 			ref := addNoise(nil, m.Period(), 1e-4, rng)
 			resp := addNoise(nil, rbj("peak", 48000, 1000, 1, 6).filter(m.Period()), 1e-4, rng)
 			an := NewAnalyzer(m)
+			var lines []float64
+			for k := 1; k <= c.hum; k++ {
+				lines = append(lines, 50*float64(k))
+			}
+			if err := an.SetInterferers(lines); err != nil {
+				b.Fatal(err)
+			}
 			avg := NewAverager(m)
 			var f Frame
 			b.ReportAllocs()

@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"sort"
 )
 
 // Defaults and limits of [Options].
@@ -106,6 +107,26 @@ type Options struct {
 	// [Analyzer] averages to estimate the noise at the tone, 1 to
 	// MaxNoiseBins; 0 means DefaultNoiseBins.
 	NoiseBins int
+	// Avoid lists frequencies in hertz that no tone may lie within
+	// AvoidBins bins of — mains hum lines, typically ([MainsLines]) — so
+	// that [Analyzer.SetInterferers] can tell them from the tones.
+	Avoid []float64
+}
+
+// AvoidBins is how many bins of the period a tone keeps from each
+// frequency in [Options.Avoid].
+const AvoidBins = 1
+
+// MainsLines returns the first n harmonics of both mains frequencies,
+// 50 and 60 Hz, in ascending order: the lines a multitone designed
+// before the hum is known should keep clear of.
+func MainsLines(n int) []float64 {
+	var l []float64
+	for k := 1; k <= n; k++ {
+		l = append(l, 50*float64(k), 60*float64(k))
+	}
+	sort.Float64s(l)
+	return l
 }
 
 // Tone is one component of a multitone: Amplitude·cos(2π·Bin·i/Period + Phase)
@@ -156,6 +177,7 @@ type Multitone struct {
 // bin and are dropped: the low end holds at most one tone per two bins,
 // minus the bins the third-harmonic rule excludes. A longer Period gives
 // finer bins and a denser low end, at the cost of fewer periods per second.
+// No tone lies within AvoidBins bins of a frequency in Avoid.
 //
 // Level. The period is scaled so that its largest sample is exactly
 // LevelDBFS (or its true peak, with LimitTruePeak); no sample is ever above
@@ -325,6 +347,11 @@ func chooseBins(o Options) ([]int, error) {
 	forbidden := make([]bool, p/2+1) // fold(3·m) of every chosen m
 	ok := func(c int) bool {
 		h := fold(3*c, p)
+		for _, a := range o.Avoid {
+			if math.Abs(float64(c)*df-a) < AvoidBins*df {
+				return false
+			}
+		}
 		return !forbidden[c] && !taken[h] && h != c
 	}
 	var bins []int
