@@ -1625,17 +1625,25 @@ func (l *liveSession) run(ctx context.Context, mode tui.Mode, toneHz float64) {
 	eng := engine.New(l.stream, cfg)
 	errc := make(chan error, 1)
 	go func() { errc <- eng.Run(ctx) }()
+	// Invalid points (dead or clipping input, muted output, a point on a
+	// hum line) are not drawn: the screen shows what can be trusted, and
+	// the problems pane says why the rest is missing.
+	restart := false
 	for ev := range eng.Events() {
 		switch e := ev.(type) {
 		case engine.PointEvent:
-			if mode == tui.ModeTone {
+			restart = restart || e.Index == 0
+			switch {
+			case !e.Valid:
+			case mode == tui.ModeTone:
 				l.send(tui.ToneMsg{Point: e.Point})
-			} else {
-				l.send(tui.PointMsg{Point: e.Point, Restart: e.Index == 0})
+			default:
+				l.send(tui.PointMsg{Point: e.Point, Restart: restart})
+				restart = false
 			}
 		case engine.TraceEvent:
 			if mode != tui.ModeTone {
-				t := e.Trace
+				t := validOnly(e.Trace, e.Valid)
 				l.send(tui.TraceMsg{Trace: &t, Complete: e.Complete})
 			}
 		case engine.ProgressEvent:
@@ -1651,6 +1659,18 @@ func (l *liveSession) run(ctx context.Context, mode tui.Mode, toneHz float64) {
 		l.log.Error("measurement stopped", "err", err)
 		l.send(tui.ErrMsg{Err: err, Fatal: errors.Is(err, audio.ErrDeviceLost)})
 	}
+}
+
+// validOnly returns t without the points valid marks false.
+func validOnly(t trace.Trace, valid []bool) trace.Trace {
+	pts := make([]trace.Point, 0, len(t.Points))
+	for i, p := range t.Points {
+		if i >= len(valid) || valid[i] {
+			pts = append(pts, p)
+		}
+	}
+	t.Points = pts
+	return t
 }
 
 // screenStatus turns the monitors' status into the screen's; rate is the

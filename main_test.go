@@ -12,6 +12,7 @@ import (
 	"os"
 	"os/exec"
 	"path/filepath"
+	"slices"
 	"strings"
 	"syscall"
 	"testing"
@@ -1019,5 +1020,35 @@ func TestSweepStimulusOutputs(t *testing.T) {
 	code, _, stderr = runCLI(t, "sweep", "--sim", "--outputs", "1,x", "-o", out)
 	if code != exitUsage || !strings.Contains(stderr, "audio.stimulus_outputs") {
 		t.Errorf("bad --outputs: exit %d, stderr %q; want 2 naming audio.stimulus_outputs", code, stderr)
+	}
+}
+
+// TestValidOnly: the live screen is handed only the points the engine
+// trusts; a short valid slice keeps the points it does not cover.
+func TestValidOnly(t *testing.T) {
+	tr := trace.Trace{Points: []trace.Point{{Freq: 50}, {Freq: 100}, {Freq: 200}, {Freq: 400}}}
+	for _, c := range []struct {
+		name  string
+		valid []bool
+		want  []float64
+	}{
+		{"all valid", []bool{true, true, true, true}, []float64{50, 100, 200, 400}},
+		{"one on a hum line", []bool{true, false, true, true}, []float64{50, 200, 400}},
+		{"none valid", []bool{false, false, false, false}, nil},
+		{"short valid slice", []bool{false}, []float64{100, 200, 400}},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			got := validOnly(tr, c.valid)
+			var f []float64
+			for _, p := range got.Points {
+				f = append(f, p.Freq)
+			}
+			if !slices.Equal(f, c.want) {
+				t.Errorf("points at %v Hz, want %v", f, c.want)
+			}
+			if len(tr.Points) != 4 {
+				t.Errorf("validOnly changed its argument: %d points left", len(tr.Points))
+			}
+		})
 	}
 }
