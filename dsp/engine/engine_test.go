@@ -283,6 +283,7 @@ var faultCases = []struct {
 	// below the noise.
 	{"noisy dead reference", faults{deadRef: true, noise: 3e-5}, Steps, CodeDeadRef, nil, nil},
 	{"noisy dead response", faults{deadDUT: true, noise: 3e-5}, Steps, CodeDeadDUT, nil, nil},
+	{"response lead pulled mid-sweep", faults{pullDUTAt: pullAt, noise: 3e-5}, Steps, CodeDeadDUT, nil, nil},
 	{"noisy drift", faults{ppm: 100, noise: 3e-5}, Steps, CodeDrift, nil, nil},
 	{"swap through a steep low-pass", faults{swap: true}, Steps, CodeSwap, nil, steepLowpass},
 	{"noisy swap through a steep high-pass", faults{swap: true, noise: 3e-5}, Steps, CodeSwap, nil, steepHighpass},
@@ -775,4 +776,40 @@ func pointsH(tr TraceEvent) []complex128 {
 		h[i] = p.H
 	}
 	return h
+}
+
+// pullAt is the capture index at which the "response lead pulled
+// mid-sweep" fault silences the response: about half-way through the
+// monitor test's sweep.
+const pullAt = 45000
+
+// TestLeadPulledMidSweep: the response lead comes off half-way through a
+// sweep of a low-pass with input noise. The points measured before stay
+// valid; from the first silent point on, every point is invalid and says
+// the response hears nothing.
+func TestLeadPulledMidSweep(t *testing.T) {
+	d := newFake(t, newBiquad(bqLowpass, 1000, math.Sqrt2/2, 0, fakeRate), faults{pullDUTAt: pullAt, noise: 3e-5})
+	e, _, err := runEngine(t, d, monitorConfig(Steps), runTimeout)
+	if err != nil {
+		t.Fatal(err)
+	}
+	res := e.Result()
+	var valid, invalid []float64
+	for _, p := range res.Points {
+		if p.Valid {
+			if len(invalid) > 0 {
+				t.Errorf("point at %g Hz valid after the lead came off", p.Point.Freq)
+			}
+			valid = append(valid, p.Point.Freq)
+			continue
+		}
+		invalid = append(invalid, p.Point.Freq)
+		if len(p.Problems) == 0 || p.Problems[len(p.Problems)-1].Code != CodeDeadDUT {
+			t.Errorf("point at %g Hz invalid for %v, want %s", p.Point.Freq, p.Problems, CodeDeadDUT)
+		}
+	}
+	t.Logf("valid %v Hz, invalid %v Hz; problems %v; %d frames", valid, invalid, res.Problems, res.Timing.AudioFrames)
+	if len(valid) < 3 || len(invalid) < leadSilentPoints {
+		t.Errorf("%d valid and %d invalid points; the pull should fall mid-sweep", len(valid), len(invalid))
+	}
 }

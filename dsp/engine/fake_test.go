@@ -75,6 +75,7 @@ type faults struct {
 	swap        bool    // inputs 1 and 2 exchanged
 	deadRef     bool    // input 2 silent
 	deadDUT     bool    // input 1 silent
+	pullDUTAt   int64   // capture index from which input 1 is silent (a lead coming off), 0 never
 	invertRef   bool    // input 2 negated
 	invertResp  bool    // input 1 negated
 	humAmp      float64 // 50 Hz on both inputs, peak
@@ -301,7 +302,7 @@ func (d *fakeDev) step(n int) {
 		if f.deadRef {
 			v2 = 0
 		}
-		if f.deadDUT {
+		if f.deadDUT || f.pullDUTAt > 0 && k >= f.pullDUTAt {
 			v1 = 0
 		}
 		if f.invertRef {

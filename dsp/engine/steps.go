@@ -59,7 +59,34 @@ type sweepState struct {
 	deadResp   int // points whose response was below the dead margin
 	deadRef    int // points whose reference was below the dead margin
 	swapped    bool
+	lead       leadWatch
 }
+
+// leadWatch follows the response level through a fixed-plan sweep to
+// catch a response lead pulled in the middle of it: the level falls in
+// one step from clearly alive to the noise (a network's stopband falls
+// off over several points and keeps a coherent tone) and stays there.
+type leadWatch struct {
+	lastAlive bool    // the previous point heard the response clearly
+	aliveDB   float64 // its response level, dB re the output level
+	aliveFreq float64
+	run       int  // silent points in a row since then
+	from      int  // index in the sweep's points of the first of them
+	pulled    bool // the lead is gone for the rest of the sweep
+}
+
+// Lead-watch thresholds.
+const (
+	// leadAliveDB is the least response level, dB re the output level,
+	// of the point before the silence: from there to below the noise in
+	// one step of the plan is beyond any network the checks expect (an
+	// 8th-order filter falls 40 dB per quarter decade).
+	leadAliveDB = -20
+	// leadSilentSNR is the SNR in dB below which the response is noise.
+	leadSilentSNR = 10
+	// leadSilentPoints is how many silent points in a row name the lead.
+	leadSilentPoints = 3
+)
 
 // stepMode is the pipelined stepped sine.
 type stepMode struct {
@@ -583,6 +610,50 @@ func (m *stepMode) fit(x []float64, f float64, k int, bad func(Problem)) (tone.E
 	return r.est.Fit(x, f)
 }
 
+// watchLead updates the sweep's lead watch with the point at f whose
+// response level is levelDB (dB re the output level) and SNR snr; see
+// leadWatch. Once the lead is named, every dead point of the sweep is
+// invalid, including the silent ones before it was named.
+func (m *stepMode) watchLead(f, levelDB float64, dead bool, snr float64, bad func(Problem)) {
+	w := &m.sw.lead
+	silent := dead && !(snr >= leadSilentSNR)
+	switch {
+	case w.pulled:
+		if dead {
+			bad(m.mon().deadDUTProblem(fmt.Sprintf("the stimulus at %.4g Hz since the lead came off", f)))
+		}
+	case silent && (w.run > 0 || w.lastAlive):
+		if w.run == 0 {
+			w.from = len(m.sw.points)
+		}
+		w.run++
+		w.lastAlive = false
+		if w.run < leadSilentPoints {
+			return
+		}
+		w.pulled = true
+		first := f
+		if w.from < len(m.sw.points) {
+			first = m.sw.points[w.from].Point.Freq
+		}
+		pr := m.mon().deadDUTProblem(fmt.Sprintf("the stimulus from %.4g Hz on (its level fell from %.1f dB re the output level to the noise in one step after %.4g Hz and stayed there, as when a lead comes off)", first, w.aliveDB, w.aliveFreq))
+		m.r.raise(pr)
+		bad(pr)
+		m.r.e.mu.Lock() // Result reads the points
+		for i := w.from; i < len(m.sw.points); i++ {
+			if p := &m.sw.points[i]; p.Valid {
+				p.Valid = false
+				p.Problems = append(p.Problems, pr)
+			}
+		}
+		m.r.e.mu.Unlock()
+	default:
+		w.run = 0
+		w.lastAlive = !dead && levelDB >= leadAliveDB
+		w.aliveDB, w.aliveFreq = levelDB, f
+	}
+}
+
 // point estimates one point and runs the per-point monitors.
 func (m *stepMode) point(p stepSched, c0 int64) PointEvent {
 	r := m.r
@@ -677,6 +748,9 @@ func (m *stepMode) point(p stepSched, c0 int64) PointEvent {
 	}
 	if respDead {
 		m.sw.deadResp++
+	}
+	if m.adapt == nil && !muted {
+		m.watchLead(f, dbfs(eResp.Amplitude()/amp), respDead, eResp.SNR, bad)
 	}
 
 	avoid := [5]float64{f, 2 * f, 3 * f, 4 * f, 5 * f}
