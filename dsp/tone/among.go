@@ -161,22 +161,8 @@ nextHarmonic:
 			est.Harmonics[h-2] = z
 		}
 	}
-	if dof := n - p; dof > 0 {
-		est.ResidualRMS = math.Sqrt(ss / float64(dof))
-	} else {
-		est.ResidualRMS = math.NaN()
-	}
-	a := cmplx.Abs(est.Phasor)
-	est.SNR = 10 * math.Log10(a*a/2/(est.ResidualRMS*est.ResidualRMS))
-	if len(harm) > 1 {
-		var h float64
-		for _, z := range est.Harmonics {
-			h += real(z)*real(z) + imag(z)*imag(z)
-		}
-		est.THD = 100 * math.Sqrt(h) / a
-	} else {
-		est.THD = math.NaN()
-	}
+	est.derive(ss, len(harm) > 1)
+	a := est.Amplitude()
 
 	// Covariance of the fundamental's cosine and sine coefficients, in
 	// units of σ²: (DᵀD)⁻¹ restricted to them. Amplitude and phase are

@@ -419,24 +419,29 @@ func finish(x []float64, w, freq float64, params int, lin *linear) Estimate {
 	n := len(x)
 	est := Estimate{Freq: freq, Phasor: lin.c[0], DC: lin.dc, N: n, Params: params}
 	copy(est.Harmonics[:], lin.c[1:])
-	ss := residualSumSq(x, w, lin.dc, &lin.c)
-	if dof := n - params; dof > 0 {
+	est.derive(residualSumSq(x, w, lin.dc, &lin.c), lin.k > 1)
+	return est
+}
+
+// derive sets ResidualRMS, SNR and THD from the residual sum of squares
+// ss, given Phasor, Harmonics (zero where not fitted), N and Params;
+// harmonics says whether any harmonic was fitted (THD is NaN if not).
+func (est *Estimate) derive(ss float64, harmonics bool) {
+	if dof := est.N - est.Params; dof > 0 {
 		est.ResidualRMS = math.Sqrt(ss / float64(dof))
 	} else {
 		est.ResidualRMS = math.NaN()
 	}
-	a := cmplx.Abs(lin.c[0])
+	a := cmplx.Abs(est.Phasor)
 	est.SNR = 10 * math.Log10(a*a/2/(est.ResidualRMS*est.ResidualRMS))
-	if lin.k > 1 {
+	est.THD = math.NaN()
+	if harmonics {
 		var h float64
-		for _, p := range lin.c[1:lin.k] {
+		for _, p := range est.Harmonics {
 			h += real(p)*real(p) + imag(p)*imag(p)
 		}
 		est.THD = 100 * math.Sqrt(h) / a
-	} else {
-		est.THD = math.NaN()
 	}
-	return est
 }
 
 func abs(i int) int {
