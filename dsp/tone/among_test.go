@@ -277,3 +277,34 @@ func TestFitAmongHarmonicOnInterferer(t *testing.T) {
 		t.Errorf("Params = %d, want %d (DC, four harmonics, three lines)", got.Params, 1+2*4+2*3)
 	}
 }
+
+// FuzzFitAmong feeds arbitrary blocks, tone and interferer frequencies to
+// FitAmong: it must never panic, and must either fail with a sentinel
+// error or return finite phasors and finite, positive variance factors.
+func FuzzFitAmong(f *testing.F) {
+	f.Add([]byte("a tone of sorts, more or less periodic, more or less, with hum"), 0.1, 0.11, 0.3)
+	f.Add([]byte{0, 1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11, 12, 13, 14, 15}, 0.25, 0.25, 0.0)
+	f.Add([]byte{255, 0, 255, 0, 255, 0, 255, 0, 255, 0, 255, 0}, 0.49, 0.01, -1.0)
+	e := &Estimator{Rate: 1}
+	f.Fuzz(func(t *testing.T, data []byte, freq, o1, o2 float64) {
+		x := make([]float64, len(data))
+		for i, b := range data {
+			x[i] = float64(int(b)-128) / 128
+		}
+		est, err := e.FitAmong(x, freq, []float64{o1, o2})
+		if err != nil {
+			for _, s := range []error{ErrShortBlock, ErrFreq, ErrIllConditioned, ErrNonFinite} {
+				if errors.Is(err, s) {
+					return
+				}
+			}
+			t.Fatalf("unexpected error %v", err)
+		}
+		if cmplx.IsNaN(est.Phasor) || cmplx.IsInf(est.Phasor) || math.IsNaN(est.DC) {
+			t.Fatalf("non-finite estimate %+v", est)
+		}
+		if est.AmpVarFactor < 0 || est.PhaseVarFactor < 0 || math.IsNaN(est.AmpVarFactor) || math.IsNaN(est.PhaseVarFactor) {
+			t.Fatalf("variance factors %v, %v", est.AmpVarFactor, est.PhaseVarFactor)
+		}
+	})
+}
