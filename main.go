@@ -1475,6 +1475,16 @@ func (a *app) live(ctx context.Context, fs *pflag.FlagSet, sim simOptions) error
 		return err
 	}
 	defer logFile.Close()
+	// While the screen owns the terminal, what the sound libraries print
+	// on their own (an ALSA underrun report) goes to the log, not across
+	// the screen; restored before any error reaches the user.
+	if f, ok := logFile.(*os.File); ok {
+		if restore, err := device.RedirectStderr(f); err == nil {
+			defer restore()
+		} else {
+			logger.Warn("standard error stays on the terminal", "err", err)
+		}
+	}
 
 	ctx, cancel := context.WithCancel(ctx)
 	defer cancel()

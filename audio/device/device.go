@@ -259,9 +259,15 @@ func (c *session) devices(kind malgo.DeviceType) ([]Info, []malgo.DeviceInfo, er
 }
 
 // List returns the playback devices, then the capture devices, of the named
-// backend ("" picks the first sound system that answers). Call it before a
-// full-screen interface starts: some backends (ALSA) print to stderr.
-func List(backend string) ([]Info, error) {
+// backend ("" picks the first sound system that answers). What the sound
+// libraries print on standard error while probing (ALSA's plugins, a JACK
+// client looking for its server) is kept off the terminal.
+func List(backend string) (infos []Info, err error) {
+	captureStderr(func() { infos, err = list(backend) })
+	return infos, err
+}
+
+func list(backend string) ([]Info, error) {
 	book := newLogBook(nil)
 	c, err := openContext(backend, "", book)
 	if err != nil {
@@ -449,12 +455,20 @@ func Open(cfg Config) (*Stream, error) {
 		return nil, err
 	}
 	s := &Stream{Core: core, book: newLogBook(cfg.Log), period: time.Duration(cfg.PeriodMS) * time.Millisecond}
-	s.ctx, err = openContext(cfg.Backend, cfg.Server, s.book)
-	if err != nil {
-		return nil, err
+	// What the sound libraries print while the devices open goes to the
+	// stream's log, not the terminal.
+	chatter := captureStderr(func() {
+		s.ctx, err = openContext(cfg.Backend, cfg.Server, s.book)
+		if err == nil {
+			if err = s.open(cfg, periodFrames); err != nil {
+				s.release()
+			}
+		}
+	})
+	for _, l := range chatter {
+		s.book.add("stderr: " + l)
 	}
-	if err := s.open(cfg, periodFrames); err != nil {
-		s.release()
+	if err != nil {
 		return nil, err
 	}
 	return s, nil
