@@ -813,3 +813,45 @@ func TestLeadPulledMidSweep(t *testing.T) {
 		t.Errorf("%d valid and %d invalid points; the pull should fall mid-sweep", len(valid), len(invalid))
 	}
 }
+
+// TestRunAfterCancelledRun: a run cancelled while its stimulus is queued
+// ahead (a mode change on the live screen) leaves that stimulus, and its
+// fade-out, in the playout queue. The next run on the same stream must
+// start after it — for every pair of methods — and measure normally.
+func TestRunAfterCancelledRun(t *testing.T) {
+	for _, first := range []Method{Multitone, Steps} {
+		for _, second := range []Method{Steps, Multitone} {
+			t.Run(first.String()+"→"+second.String(), func(t *testing.T) {
+				d := newFake(t, newBiquad(bqLowpass, 1000, math.Sqrt2/2, 0, fakeRate), faults{})
+				cfg1 := Config{Method: first, Repeat: true, Period: 8192, MaxLatency: 60 * time.Millisecond, Ahead: 300 * time.Millisecond}
+				ctx, cancel := context.WithTimeout(context.Background(), runTimeout)
+				e1 := New(d, cfg1)
+				go func() {
+					for ev := range e1.Events() {
+						if _, ok := ev.(TraceEvent); ok {
+							cancel() // as a mode change does
+						}
+					}
+				}()
+				if err := e1.Run(ctx); err != nil && !errors.Is(err, context.Canceled) {
+					t.Fatalf("first run: %v", err)
+				}
+				queued := d.WriteIndex() - d.PlayIndex()
+				if queued <= 0 {
+					t.Logf("nothing left queued after the first run")
+				}
+				cfg2 := Config{Method: second, Plan: []float64{631}, Period: 8192, Periods: 2, MaxLatency: 60 * time.Millisecond}
+				if second == Multitone {
+					cfg2.Plan = nil
+				}
+				_, c, err := runEngine(t, d, cfg2, runTimeout)
+				if err != nil {
+					t.Fatalf("second run, with %d frames still queued when it began: %v", queued, err)
+				}
+				if _, ok := c.lastTrace(true); !ok {
+					t.Errorf("second run gave no complete trace")
+				}
+			})
+		}
+	}
+}

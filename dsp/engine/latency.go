@@ -64,7 +64,11 @@ func (r *run) startBurst(ctx context.Context) error {
 	st.quiet = max(1, int(math.Round(r.cfg.QuietTime.Seconds()*r.fr)))
 	st.maxLat = int(math.Round(r.cfg.MaxLatency.Seconds() * r.fr))
 	stageFade := int64(r.s.Output().Fade().Seconds()*r.fr) + 1
-	st.burstAt = r.s.PlayIndex() + 2*r.lead + max(int64(st.quiet), stageFade+r.lead)
+	// After whatever an earlier run left queued (its stimulus ahead of
+	// the device and its fade-out, when it was cancelled), so that the
+	// quiet window hears silence and the burst lands behind it.
+	from := max(r.s.PlayIndex()+2*r.lead, r.s.WriteIndex())
+	st.burstAt = from + max(int64(st.quiet), stageFade+r.lead)
 	st.earliest = st.windowEnd()
 	if err := r.w.write(ctx, st.burstAt, st.burst); err != nil {
 		return err
