@@ -872,8 +872,8 @@ func TestSweepSimFaults(t *testing.T) {
 }
 
 // TestSweepRig measures through the PulseAudio rig of ../shared/AUDIO.md
-// (started by .ci/run): output 1 passes ladspa-sdk's one-pole "lpf" at
-// 1 kHz, output 2 loops straight back. The measured response must match
+// (started by .ci/run), by stepped sine and by multitone: output 1 passes
+// ladspa-sdk's one-pole "lpf" at 1 kHz, output 2 loops straight back. The measured response must match
 // the plugin's digital one-pole H = (1−p)/(1−p·e^{−jω}), with its pole
 // p = c − √(c²−1), c = 2 − cos(2π·1000/48000) as ladspa-sdk's filter.c
 // computes it, within 0.05 dB and 0.5° from 50 Hz to 15 kHz.
@@ -897,29 +897,33 @@ func TestSweepRig(t *testing.T) {
 		}
 		defer syscall.Flock(int(f.Fd()), syscall.LOCK_UN)
 	}
-	out := filepath.Join(t.TempDir(), "rig.csv")
-	code, _, stderr := runCLI(t, "sweep", "--backend", "pulseaudio", "--playback", "out", "--capture", "cap.monitor",
-		"--from", "50", "--to", "15k", "--ppd", "8", "--level", "-12", "-o", out)
-	if code != exitOK {
-		t.Fatalf("exit %d: %s", code, stderr)
+	for _, method := range []string{"steps", "multitone"} {
+		t.Run(method, func(t *testing.T) {
+			out := filepath.Join(t.TempDir(), "rig.csv")
+			code, _, stderr := runCLI(t, "sweep", "--backend", "pulseaudio", "--playback", "out", "--capture", "cap.monitor",
+				"--from", "50", "--to", "15k", "--ppd", "8", "--level", "-12", "--method", method, "-o", out)
+			if code != exitOK {
+				t.Fatalf("exit %d: %s", code, stderr)
+			}
+			tr, err := trace.LoadFile(out)
+			if err != nil {
+				t.Fatal(err)
+			}
+			c := 2 - math.Cos(2*math.Pi*1000/48000)
+			p := c - math.Sqrt(c*c-1)
+			var worstDB, worstDeg float64
+			for _, pt := range tr.Points {
+				w := 2 * math.Pi * pt.Freq / 48000
+				want := complex(1-p, 0) / (1 - complex(p, 0)*cmplx.Exp(complex(0, -w)))
+				worstDB = max(worstDB, math.Abs(pt.GainDB()-20*math.Log10(cmplx.Abs(want))))
+				worstDeg = max(worstDeg, math.Abs(trace.WrapDeg(pt.PhaseDeg()-cmplx.Phase(want)*180/math.Pi)))
+			}
+			if worstDB > 0.05 || worstDeg > 0.5 {
+				t.Errorf("worst deviation from the LADSPA one-pole %.4f dB, %.3f° over %d points; allowed 0.05 dB, 0.5°", worstDB, worstDeg, len(tr.Points))
+			}
+			t.Logf("%d points, worst %.4f dB, %.3f°", len(tr.Points), worstDB, worstDeg)
+		})
 	}
-	tr, err := trace.LoadFile(out)
-	if err != nil {
-		t.Fatal(err)
-	}
-	c := 2 - math.Cos(2*math.Pi*1000/48000)
-	p := c - math.Sqrt(c*c-1)
-	var worstDB, worstDeg float64
-	for _, pt := range tr.Points {
-		w := 2 * math.Pi * pt.Freq / 48000
-		want := complex(1-p, 0) / (1 - complex(p, 0)*cmplx.Exp(complex(0, -w)))
-		worstDB = max(worstDB, math.Abs(pt.GainDB()-20*math.Log10(cmplx.Abs(want))))
-		worstDeg = max(worstDeg, math.Abs(trace.WrapDeg(pt.PhaseDeg()-cmplx.Phase(want)*180/math.Pi)))
-	}
-	if worstDB > 0.05 || worstDeg > 0.5 {
-		t.Errorf("worst deviation from the LADSPA one-pole %.4f dB, %.3f° over %d points; allowed 0.05 dB, 0.5°", worstDB, worstDeg, len(tr.Points))
-	}
-	t.Logf("%d points, worst %.4f dB, %.3f°", len(tr.Points), worstDB, worstDeg)
 }
 
 // TestDemoInTmux runs 'tonetrace demo' as a user would, in tmux at 80×24
