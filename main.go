@@ -1787,11 +1787,30 @@ func (l *liveSession) Pause(paused bool) error {
 	return nil
 }
 
+// Mute mutes or unmutes the output at once. A run that stopped because it
+// started muted (its latency burst went unheard) starts again on unmute.
 func (l *liveSession) Mute(muted bool) {
 	if muted {
 		l.stream.Output().Mute()
-	} else {
-		l.stream.Output().Unmute()
+		return
+	}
+	l.stream.Output().Unmute()
+	l.mu.Lock()
+	ended := l.done != nil && isClosed(l.done)
+	restart := ended && !l.paused && l.ctx.Err() == nil
+	l.mu.Unlock()
+	if restart {
+		l.start()
+	}
+}
+
+// isClosed reports whether ch is closed, without waiting.
+func isClosed(ch chan struct{}) bool {
+	select {
+	case <-ch:
+		return true
+	default:
+		return false
 	}
 }
 

@@ -6,6 +6,7 @@ import (
 	"encoding/json"
 	"flag"
 	"io"
+	"log/slog"
 	"math"
 	"math/cmplx"
 	"math/rand/v2"
@@ -18,12 +19,16 @@ import (
 	"testing"
 	"time"
 
+	tea "github.com/charmbracelet/bubbletea"
+
 	"tonetrace/audio/bench"
 	"tonetrace/audio/wavfile"
+	"tonetrace/config"
 	iir "tonetrace/dsp/biquad"
 	"tonetrace/dsp/extract"
 	"tonetrace/dsp/stimulus"
 	"tonetrace/dsp/trace"
+	"tonetrace/tui"
 )
 
 var update = flag.Bool("update", false, "rewrite testdata/example-presence.wav")
@@ -1086,4 +1091,51 @@ func TestDevicesQuietStderr(t *testing.T) {
 			}
 		})
 	}
+}
+
+// TestLiveSessionResumesOnUnmute: a measurement started while the output
+// is muted (a mode change after the mute key) stops, since its latency
+// burst goes unheard; unmuting starts it again, and traces arrive.
+func TestLiveSessionResumesOnUnmute(t *testing.T) {
+	t.Setenv("XDG_CONFIG_HOME", t.TempDir()) // defaults, whatever this machine has
+	s, err := config.Load("")
+	if err != nil {
+		t.Fatal(err)
+	}
+	st, b, err := openStream(s, simOptions{on: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer st.Close()
+	ctx, cancel := context.WithCancel(context.Background())
+	defer cancel()
+	l := newLiveSession(ctx, st, b, s, tui.ModeStepped, slog.New(slog.DiscardHandler))
+	defer l.stop()
+	l.Mute(true)
+	if err := l.SetMode(tui.ModeMultitone); err != nil {
+		t.Fatal(err)
+	}
+	wait := func(what string, ok func(tea.Msg) bool) {
+		t.Helper()
+		timeout := time.After(30 * time.Second)
+		for {
+			select {
+			case m := <-l.events:
+				if ok(m) {
+					return
+				}
+			case <-timeout:
+				t.Fatalf("timed out waiting for %s", what)
+			}
+		}
+	}
+	wait("the muted run to stop with an error", func(m tea.Msg) bool {
+		e, ok := m.(tui.ErrMsg)
+		return ok && strings.Contains(e.Err.Error(), "muted")
+	})
+	l.Mute(false)
+	wait("a trace after unmuting", func(m tea.Msg) bool {
+		tr, ok := m.(tui.TraceMsg)
+		return ok && len(tr.Trace.Points) > 0
+	})
 }
