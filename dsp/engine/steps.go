@@ -552,15 +552,7 @@ func (m *stepMode) complete() {
 	if n := len(m.sw.points); n > 0 && m.sw.deadResp == n {
 		pr := m.mon().deadDUTProblem(fmt.Sprintf("the sweep (every point below %.0f dB of the output level)", -DeadMarginDB))
 		r.raise(pr)
-		r.e.mu.Lock() // Result reads the points
-		for i := range m.sw.points {
-			p := &m.sw.points[i]
-			if p.Valid {
-				p.Valid = false
-				p.Problems = append(p.Problems, pr)
-			}
-		}
-		r.e.mu.Unlock()
+		m.invalidate(0, pr)
 	}
 	// Most points without a reference name a dead one, unless the inputs
 	// look swapped: then the reference is behind the network's stopband.
@@ -610,6 +602,18 @@ func (m *stepMode) fit(x []float64, f float64, k int, bad func(Problem)) (tone.E
 	return r.est.Fit(x, f)
 }
 
+// invalidate marks the sweep's points from index from on invalid for pr.
+func (m *stepMode) invalidate(from int, pr Problem) {
+	m.r.e.mu.Lock() // Result reads the points
+	defer m.r.e.mu.Unlock()
+	for i := from; i < len(m.sw.points); i++ {
+		if p := &m.sw.points[i]; p.Valid {
+			p.Valid = false
+			p.Problems = append(p.Problems, pr)
+		}
+	}
+}
+
 // watchLead updates the sweep's lead watch with the point at f whose
 // response level is levelDB (dB re the output level) and SNR snr; see
 // leadWatch. Once the lead is named, every dead point of the sweep is
@@ -639,14 +643,7 @@ func (m *stepMode) watchLead(f, levelDB float64, dead bool, snr float64, bad fun
 		pr := m.mon().deadDUTProblem(fmt.Sprintf("the stimulus from %.4g Hz on (its level fell from %.1f dB re the output level to the noise in one step after %.4g Hz and stayed there, as when a lead comes off)", first, w.aliveDB, w.aliveFreq))
 		m.r.raise(pr)
 		bad(pr)
-		m.r.e.mu.Lock() // Result reads the points
-		for i := w.from; i < len(m.sw.points); i++ {
-			if p := &m.sw.points[i]; p.Valid {
-				p.Valid = false
-				p.Problems = append(p.Problems, pr)
-			}
-		}
-		m.r.e.mu.Unlock()
+		m.invalidate(w.from, pr)
 	default:
 		w.run = 0
 		w.lastAlive = !dead && levelDB >= leadAliveDB
