@@ -14,6 +14,7 @@ import (
 	"tonetrace/audio"
 	"tonetrace/dsp/multitone"
 	"tonetrace/dsp/plan"
+	"tonetrace/dsp/trace"
 )
 
 // Tolerances of the measurement tests (the brief's targets).
@@ -853,5 +854,44 @@ func TestRunAfterCancelledRun(t *testing.T) {
 				}
 			})
 		}
+	}
+}
+
+// TestSilentReferenceKeepsPoints: a reference input of exact digital
+// silence (a channel muted in a mixer, a software route gone) gives no
+// resp/ref ratio. Every point must still be kept — invalid, and given
+// relative to the stimulus — by both methods; the fake has no interface
+// filters, so that equals the network's cookbook response (W3C Audio EQ
+// Cookbook, REFERENCES §7) within 0.01 dB and 0.1°.
+func TestSilentReferenceKeepsPoints(t *testing.T) {
+	for _, m := range []Method{Steps, Multitone} {
+		t.Run(m.String(), func(t *testing.T) {
+			net := newBiquad(bqLowpass, 1000, math.Sqrt2/2, 0, fakeRate)
+			want := newBiquad(bqLowpass, 1000, math.Sqrt2/2, 0, fakeRate)
+			d := newFake(t, net, faults{deadRef: true})
+			cfg := monitorConfig(m)
+			cfg.FixedLatency = fakeDelay // the burst reaches the response; pin it for the comparison
+			e, _, err := runEngine(t, d, cfg, runTimeout)
+			if err != nil {
+				t.Fatal(err)
+			}
+			res := e.Result()
+			if len(res.Trace.Points) == 0 {
+				t.Fatal("no point kept")
+			}
+			var worstDB, worstDeg float64
+			for i, p := range res.Trace.Points {
+				if res.Valid[i] {
+					t.Errorf("%g Hz valid with a silent reference", p.Freq)
+				}
+				h := want.response(p.Freq, fakeRate)
+				worstDB = max(worstDB, math.Abs(p.GainDB()-20*math.Log10(cmplx.Abs(h))))
+				worstDeg = max(worstDeg, math.Abs(trace.WrapDeg(p.PhaseDeg()-cmplx.Phase(h)*180/math.Pi)))
+			}
+			t.Logf("%d points kept, all invalid; against the stimulus: worst %.4f dB, %.3f°", len(res.Trace.Points), worstDB, worstDeg)
+			if worstDB > 0.01 || worstDeg > 0.1 {
+				t.Errorf("kept points off the network's response by %.4f dB, %.3f°", worstDB, worstDeg)
+			}
+		})
 	}
 }

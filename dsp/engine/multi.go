@@ -187,6 +187,18 @@ func (m *multiMode) analyze() (bool, error) {
 	return m.done, nil
 }
 
+// stimulusAsRef makes the stimulus tone k (amplitude a at the inputs
+// through a unity loop) the reference of t, whose reference input is
+// dead: response over nothing is no number, response over the stimulus
+// keeps what the response input heard (invalid, but kept).
+func (m *multiMode) stimulusAsRef(t *multitone.ToneResult, k int, a float64) {
+	t.Ref = cmplx.Rect(a, m.tones[k].Phase)
+	t.RefNoise = 0
+	t.H = t.Resp / t.Ref
+	sigma := math.Sqrt(t.RespNoise / abs2(t.Resp) / 2)
+	t.GainU, t.PhaseU = 20/math.Ln10*sigma, 180/math.Pi*sigma
+}
+
 // analyzePeriod analyses period j of the loop captured at c0.
 func (m *multiMode) analyzePeriod(j, c0, shift int64) {
 	r := m.r
@@ -234,6 +246,7 @@ func (m *multiMode) analyzePeriod(j, c0, shift int64) {
 				nRefNoise++
 			}
 			m.refDead[k]++ // the tone's average is marked invalid
+			m.stimulusAsRef(t, k, a)
 		}
 		if respDead {
 			nRespDead++

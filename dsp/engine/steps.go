@@ -683,12 +683,14 @@ func (m *stepMode) point(p stepSched, c0 int64) PointEvent {
 		bad(Problem{Code: CodeDropout, Message: fmt.Sprintf("frames were lost during the point at %.4g Hz", f), Fix: dropFix})
 		return ev
 	}
+	// The stimulus itself, as the inputs would hear it through a unity
+	// loop: the reference when there is no reference input, and the
+	// stand-in when the reference input is dead.
+	stimRef := tone.Estimate{Freq: f, Phasor: stim, N: n, SNR: math.Inf(1), THD: math.NaN()}
 	eResp, err := m.fit(resp, f, 0, bad)
-	var eRef tone.Estimate
+	eRef := stimRef
 	if err == nil && ref != nil {
 		eRef, err = m.fit(ref, f, 1, bad)
-	} else if ref == nil {
-		eRef = tone.Estimate{Freq: f, Phasor: stim, N: n, SNR: math.Inf(1), THD: math.NaN()}
 	}
 	if err != nil {
 		ev.Point = trace.NewPoint(f, cmplx.NaN())
@@ -733,8 +735,11 @@ func (m *stepMode) point(p stepSched, c0 int64) PointEvent {
 	// inputs).
 	known, flat := refWire(m.wiring)
 	if refDead {
+		// Response over nothing is no number; response over the stimulus
+		// keeps what the response input heard (invalid, but kept).
+		ev.Point = tone.Ratio(eResp, stimRef)
 		m.sw.deadRef++
-		pr := mon.deadRefProblem(fmt.Sprintf("the stimulus at %.4g Hz (%.0f dBFS, expected about %.0f dBFS)", f, dbfs(eRef.Amplitude()), dbfs(amp)))
+		pr := mon.deadRefProblem(fmt.Sprintf("the stimulus at %.4g Hz (%.0f dBFS, expected about %.0f dBFS; the point is kept relative to the stimulus)", f, dbfs(eRef.Amplitude()), dbfs(amp)))
 		bad(pr)
 		if r.st.sign == 0 {
 			r.raise(pr)
