@@ -1288,27 +1288,42 @@ func (a *app) sweep(ctx context.Context, fs *pflag.FlagSet, out string, sim simO
 	return nil
 }
 
-// maxInvalidShown is how many invalid points a sweep explains one by one.
-const maxInvalidShown = 5
-
-// reportInvalidPoints says on stderr why each invalid point (up to
-// maxInvalidShown, lowest frequency first) is invalid: its first problem.
+// reportInvalidPoints says on stderr why points are invalid: one line per
+// cause (a problem code on an input), with the frequencies it struck and
+// the message and fix of its first point.
 func (a *app) reportInvalidPoints(points []engine.PointEvent) {
-	var bad []engine.PointEvent
-	for _, p := range points {
-		if !p.Valid && len(p.Problems) > 0 {
-			bad = append(bad, p)
-		}
+	type cause struct {
+		first engine.Problem
+		freqs []float64
 	}
-	sort.Slice(bad, func(i, j int) bool { return bad[i].Point.Freq < bad[j].Point.Freq })
-	for i, p := range bad {
-		if i == maxInvalidShown {
-			fmt.Fprintf(a.stderr, "%s: sweep: … and %d more invalid points\n", programName, len(bad)-i)
-			break
+	var order []string
+	causes := map[string]*cause{}
+	for _, p := range points {
+		if p.Valid || len(p.Problems) == 0 {
+			continue
 		}
 		pr := p.Problems[0]
-		fmt.Fprintf(a.stderr, "%s: sweep: invalid at %s Hz: %s; %s\n", programName,
-			strconv.FormatFloat(p.Point.Freq, 'g', 6, 64), pr.Message, pr.Fix)
+		key := fmt.Sprintf("%s/%d", pr.Code, pr.Input)
+		c, ok := causes[key]
+		if !ok {
+			c = &cause{first: pr}
+			causes[key] = c
+			order = append(order, key)
+		}
+		c.freqs = append(c.freqs, p.Point.Freq)
+	}
+	for _, key := range order {
+		c := causes[key]
+		slices.Sort(c.freqs)
+		where := make([]string, 0, len(c.freqs))
+		for _, f := range c.freqs {
+			where = append(where, formatHz(f))
+		}
+		at := strings.Join(where, ", ")
+		if len(where) > 4 {
+			at = fmt.Sprintf("%d points, %s … %s", len(where), where[0], where[len(where)-1])
+		}
+		fmt.Fprintf(a.stderr, "%s: sweep: invalid at %s: %s; %s\n", programName, at, c.first.Message, c.first.Fix)
 	}
 }
 
