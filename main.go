@@ -1029,12 +1029,18 @@ audio.capture) or by its index.`,
 				return nil
 			}
 			fmt.Fprintf(a.stdout, "%-8s %3s %-11s %-32s %-32s %4s %7s\n", "kind", "#", "backend", "name", "description", "ch", "rate")
+			unknown := false
 			for _, d := range list {
 				mark := ""
 				if d.Default {
 					mark = " (default)"
 				}
-				fmt.Fprintf(a.stdout, "%-8s %3d %-11s %-32s %-32s %4d %7d%s\n", d.Kind, d.Index, d.Backend, clip(d.Name, 32), clip(d.Description, 32), d.Channels, d.Rate, mark)
+				fmt.Fprintf(a.stdout, "%-8s %3d %-11s %-32s %-32s %4s %7s%s\n", d.Kind, d.Index, d.Backend, clip(d.Name, 32), clip(d.Description, 32),
+					orUnknown(d.Channels), orUnknown(d.Rate), mark)
+				unknown = unknown || d.Channels == 0 || d.Rate == 0
+			}
+			if unknown {
+				fmt.Fprintf(a.stdout, "– : not reported by the device (ALSA lists its plugins so)\n")
 			}
 			return nil
 		},
@@ -1042,6 +1048,15 @@ audio.capture) or by its index.`,
 	cmd.Flags().StringVar(&backend, "backend", "", "sound system: pulseaudio, alsa, jack, null (default: the first that answers)")
 	cmd.Flags().BoolVar(&asJSON, "json", false, "print the list as JSON")
 	return cmd
+}
+
+// orUnknown formats a count the device reported, or "–" for 0 (not
+// reported).
+func orUnknown(n int) string {
+	if n == 0 {
+		return "–"
+	}
+	return strconv.Itoa(n)
 }
 
 // clip shortens s to at most n runes, marking the cut with an ellipsis.

@@ -1139,3 +1139,29 @@ func TestLiveSessionResumesOnUnmute(t *testing.T) {
 		return ok && len(tr.Trace.Points) > 0
 	})
 }
+
+// TestDevicesText: the null backend's devices report neither channels nor
+// rate; the listing shows "–" for them and says what it means, instead of
+// a channel count and rate of 0.
+func TestDevicesText(t *testing.T) {
+	code, stdout, stderr := runCLI(t, "devices", "--backend", "null")
+	if code != exitOK {
+		t.Fatalf("exit %d: %s", code, stderr)
+	}
+	lines := strings.Split(strings.TrimSpace(stdout), "\n")
+	if len(lines) < 3 || !strings.HasPrefix(lines[0], "kind") {
+		t.Fatalf("listing:\n%s", stdout)
+	}
+	for _, l := range lines[1 : len(lines)-1] {
+		f := strings.Fields(l)
+		if len(f) < 6 || f[2] != "null" {
+			t.Errorf("row %q is not a null-backend device", l)
+		}
+		if strings.Count(l, "–") != 2 {
+			t.Errorf("row %q does not mark the unreported channels and rate", l)
+		}
+	}
+	if !strings.HasPrefix(lines[len(lines)-1], "– : not reported") {
+		t.Errorf("no note on \"–\": %q", lines[len(lines)-1])
+	}
+}
