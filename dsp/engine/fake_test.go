@@ -1,6 +1,7 @@
 package engine
 
 import (
+	"cmp"
 	"context"
 	"math"
 	"math/rand/v2"
@@ -79,6 +80,8 @@ type faults struct {
 	invertRef   bool    // input 2 negated
 	invertResp  bool    // input 1 negated
 	humAmp      float64 // 50 Hz on both inputs, peak
+	humHz       float64 // the mains frequency of humAmp, 0 for 50 Hz
+	humH3       float64 // a 3rd harmonic of the hum, relative to humAmp
 	clipGain    float64 // input 1 multiplied by this (then clamped at full scale)
 	dropAt      int64   // capture index from which the reader loses the rest of a read
 	zeroAt      int64   // capture index of a stretch of zeroed input samples
@@ -312,7 +315,8 @@ func (d *fakeDev) step(n int) {
 			v1 = -v1
 		}
 		if f.humAmp != 0 {
-			h := f.humAmp * math.Sin(2*math.Pi*50*float64(k)/float64(d.rate))
+			hz := cmp.Or(f.humHz, 50)
+			h := f.humAmp * (math.Sin(2*math.Pi*hz*float64(k)/float64(d.rate)) + f.humH3*math.Sin(2*math.Pi*3*hz*float64(k)/float64(d.rate)+1))
 			if f.humChannels != 2 {
 				v1 += h
 			}
