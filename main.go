@@ -1275,6 +1275,10 @@ func (a *app) sweep(ctx context.Context, fs *pflag.FlagSet, out string, sim simO
 	if invalid > 0 {
 		t.SetMeta("invalid_points_hz", strings.Join(bad, " "))
 	}
+	if moved := movedPoints(res.Points); moved != "" {
+		t.SetMeta("moved_clear_of_hum", moved)
+		fmt.Fprintf(a.stderr, "%s: sweep: note: measured clear of the mains hum lines: %s\n", programName, moved)
+	}
 	if !res.Complete {
 		t.SetMeta("complete", "no: the run ended early")
 	}
@@ -1301,6 +1305,18 @@ func (a *app) sweep(ctx context.Context, fs *pflag.FlagSet, out string, sim simO
 		return fmt.Errorf("%w: %d of %d points are invalid (see the problems above); fix the wiring and measure again", errInvalidMeasurement, invalid, len(t.Points))
 	}
 	return nil
+}
+
+// movedPoints lists the points measured off their planned frequency to
+// keep clear of a mains hum line ("100 Hz at 98 Hz, …"), or "".
+func movedPoints(points []engine.PointEvent) string {
+	var moved []string
+	for _, p := range points {
+		if p.Planned != 0 && p.Planned != p.Point.Freq {
+			moved = append(moved, formatHz(p.Planned)+" at "+formatHz(p.Point.Freq))
+		}
+	}
+	return strings.Join(moved, ", ")
 }
 
 // reportInvalidPoints says on stderr why points are invalid: one line per

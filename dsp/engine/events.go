@@ -31,6 +31,10 @@ type PointEvent struct {
 	// Problems lists what the monitors found in this point's block; it
 	// may be non-empty for a valid point (a warning such as hum).
 	Problems []Problem
+	// Planned is the frequency the plan asked for. Point.Freq differs
+	// from it when the point was moved clear of a mains hum line it could
+	// not be told from (see Config.MaxIntegrate).
+	Planned float64
 }
 
 // TraceEvent is a whole response: a finished sweep or average, a running

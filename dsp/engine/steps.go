@@ -25,8 +25,9 @@ const driftMinCycles = 50
 // stepSched is one scheduled step of the stepped sine, in output indices.
 type stepSched struct {
 	freq      float64
-	start     int64 // first sample of the step (its settling part)
-	integ     int64 // first sample of the integration block
+	planned   float64 // the plan's frequency; freq differs when moved clear of hum
+	start     int64   // first sample of the step (its settling part)
+	integ     int64   // first sample of the integration block
 	settle    int
 	length    int
 	skip      int     // settling frames left out of the reference's glitch check
@@ -221,10 +222,38 @@ func (m *stepMode) integFrames(f float64) (n, least int) {
 	return n, least
 }
 
+// clearOfHum moves a planned frequency that lies closer to a mains hum
+// line than even the longest block tells apart well (humMoveBins DFT bins
+// of MaxIntegrate) to humSepBins bins from the line, on its own side
+// (above, when on it): a point a little off the plan beats a point lost
+// to hum, or one whose uncertainty the hum inflates many times.
+func (m *stepMode) clearOfHum(f float64) float64 {
+	sec := m.r.cfg.MaxIntegrate.Seconds()
+	sep := humSepBins / sec
+	for _, l := range m.mon().humAny() {
+		if d := f - l; math.Abs(d) < humMoveBins/sec {
+			f = l + math.Copysign(sep, d)
+			if d == 0 {
+				f = l + sep
+			}
+		}
+	}
+	if f >= m.r.fr/2 {
+		return m.r.fr/2 - sep // never beyond Nyquist (lines there are moot anyway)
+	}
+	return f
+}
+
 // humSepBins is how many DFT bins of the integration block a stepped-sine
 // frequency should lie from a mains hum line: two keep the joint fit's
 // variance within a few percent of the resolved-tone bound.
 const humSepBins = 2
+
+// humMoveBins is the distance from a mains hum line, in DFT bins of the
+// longest block, below which a stepped-sine point is moved (clearOfHum):
+// at half a bin the joint fit's variance is already 1.7 times the
+// resolved-tone bound.
+const humMoveBins = 0.5
 
 // hasNext reports whether another step can be scheduled now.
 func (m *stepMode) hasNext() bool {
@@ -248,11 +277,12 @@ func (m *stepMode) makeStep(at int64, runStart bool) (stepSched, bool) {
 		}
 		m.queue, m.qSweep, m.qIndex = m.fixed, m.qSweep+1, 0
 	}
-	var f float64
+	var f, planned float64
 	if again != nil {
-		f = again.freq
+		f, planned = again.freq, again.planned
 	} else {
-		f = m.queue[0]
+		planned = m.queue[0]
+		f = m.clearOfHum(planned)
 		m.queue = m.queue[1:]
 	}
 	settle := m.settleFrames(f)
@@ -265,7 +295,7 @@ func (m *stepMode) makeStep(at int64, runStart bool) (stepSched, bool) {
 	if runStart {
 		skip = max(skip, m.r.fade)
 	}
-	s := stepSched{freq: f, start: at, integ: at + int64(settle), settle: settle, length: n, skip: skip,
+	s := stepSched{freq: f, planned: planned, start: at, integ: at + int64(settle), settle: settle, length: n, skip: skip,
 		sweep: m.qSweep, index: m.qIndex, minFrames: least + int64(leastN)}
 	if again != nil {
 		s.sweep, s.index, s.retry = again.sweep, again.index, again.retry
@@ -670,7 +700,7 @@ func (m *stepMode) point(p stepSched, c0 int64) PointEvent {
 		refWide = r.hist.read(m.blkRef, 1, c0-int64(pre))
 		ref = refWide[pre : pre+n]
 	}
-	ev := PointEvent{Index: p.index, Sweep: p.sweep, Valid: true}
+	ev := PointEvent{Index: p.index, Sweep: p.sweep, Valid: true, Planned: p.planned}
 	bad := func(pr Problem) {
 		ev.Valid = false
 		ev.Problems = append(ev.Problems, pr)
