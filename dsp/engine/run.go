@@ -48,6 +48,7 @@ type run struct {
 	refIn       int // 1-based, 0 without a reference input
 	lead        int64
 	ahead       int64
+	maxAhead    int64 // the most ahead may grow to after underruns
 	fade        int
 	guard       int
 	hold        int64
@@ -189,6 +190,7 @@ func (r *run) setup() error {
 	ms := func(d time.Duration) int64 { return int64(math.Round(d.Seconds() * r.fr)) }
 	r.lead = int64(s.Lead())
 	r.ahead = max(ms(cfg.Ahead), r.lead+3*r.lead/2)
+	r.maxAhead = max(r.ahead, ms(maxAutoAhead))
 	r.fade = max(1, int(ms(cfg.Fade)))
 	r.guard = int(ms(cfg.Guard))
 	r.hold = ms(cfg.ProblemHold)
@@ -573,7 +575,17 @@ func (r *run) checkStats() {
 		r.raise(Problem{Code: CodeDropout,
 			Message: fmt.Sprintf("%d stimulus samples reached the device too late and were skipped", st.Late-d.Late), Fix: fix})
 	}
+	if st.Underruns > d.Underruns || st.Late > d.Late {
+		// The machine kept the engine from writing in time: queue
+		// further ahead from now on, so the next such pause is bridged.
+		r.ahead = min(2*r.ahead, r.maxAhead)
+	}
 }
+
+// maxAutoAhead bounds how far ahead the engine queues the stimulus after
+// it has doubled its lead for underruns (Config.Ahead may set more): it
+// must stay inside the stream's playout queue (500 ms on a device).
+const maxAutoAhead = 400 * time.Millisecond
 
 // status builds the current status and starts a new interval.
 func (r *run) status() Status {
