@@ -92,9 +92,9 @@ type faults struct {
 	noise       float64 // white noise standard deviation on both inputs
 	humChannels int     // 0: both inputs; 1 or 2: that input only
 	paced       bool    // run in real time like a real device, never waiting for the engine
-	stalls      []int64 // capture indices at which Read stalls for stallFor (the engine descheduled)
-	stallFor    time.Duration
-	iface       bool // both inputs pass an interface's own filters: DC block at 5 Hz, anti-alias at 20 kHz
+	stalls      []int64 // capture indices from which the device runs stallFrames on without waiting for the engine
+	stallFrames int     // (as when a busy machine deschedules the engine), not paced
+	iface       bool    // both inputs pass an interface's own filters: DC block at 5 Hz, anti-alias at 20 kHz
 }
 
 // ifaceFilter is what a typical interface does to every input: a
@@ -213,6 +213,16 @@ func (d *fakeDev) run() {
 			d.SetLost()
 			wake(d.engWake)
 			return
+		}
+		if d.stalled < len(d.f.stalls) && d.frames >= d.f.stalls[d.stalled] {
+			// The engine "sleeps": the device plays stallFrames on.
+			d.stalled++
+			for n := 0; n < d.f.stallFrames; n += d.period {
+				d.step(d.period)
+			}
+			d.captured.Store(d.frames)
+			wake(d.engWake)
+			continue
 		}
 		ready := d.frames-d.read.Load() <= int64(2*d.period) &&
 			(!d.open.Load() || d.queued.Load() >= d.PlayIndex()+int64(d.period))
@@ -373,10 +383,6 @@ func (d *fakeDev) Read(ctx context.Context, dst [][]float64) (int, int64, error)
 		n, first, err := d.Core.Read(ctx, dst)
 		if err != nil {
 			return n, first, err
-		}
-		if len(d.f.stalls) > d.stalled && first+int64(n) > d.f.stalls[d.stalled] {
-			d.stalled++
-			time.Sleep(d.f.stallFor) // the reader's goroutine is the engine's
 		}
 		d.read.Store(first + int64(n))
 		wake(d.devWake)
