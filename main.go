@@ -1237,6 +1237,10 @@ func (a *app) sweep(ctx context.Context, fs *pflag.FlagSet, out string, sim simO
 	cfg := engine.Config{
 		From: s.Sweep.FromHz, To: s.Sweep.ToHz, PerDecade: s.Sweep.PointsPerDecade,
 		LevelDBFS: s.Output.LevelDBFS, MaxDuration: 10 * time.Minute,
+		// Without a screen nothing needs a quick reaction, so the
+		// stimulus is queued well ahead: a busy laptop can pause the
+		// program for a quarter second without a dropout.
+		Ahead: 250 * time.Millisecond,
 	}
 	if s.Sweep.Method == config.MethodMultitone {
 		cfg.Method = engine.Multitone
