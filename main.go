@@ -1264,6 +1264,9 @@ func (a *app) sweep(ctx context.Context, fs *pflag.FlagSet, out string, sim simO
 	t := res.Trace
 	if len(t.Points) == 0 {
 		if runErr != nil {
+			if errors.Is(runErr, context.Canceled) {
+				return fmt.Errorf("%w: interrupted before the first point", errInvalidMeasurement)
+			}
 			return fmt.Errorf("%w: %v; nothing was measured", errInvalidMeasurement, runErr)
 		}
 		return fmt.Errorf("%w: no point was measured", errInvalidMeasurement)
@@ -1303,6 +1306,8 @@ func (a *app) sweep(ctx context.Context, fs *pflag.FlagSet, out string, sim simO
 	}
 	a.reportInvalidPoints(res.Points)
 	switch {
+	case errors.Is(runErr, context.Canceled):
+		return fmt.Errorf("%w: interrupted; the %d points measured before that are in %s (marked incomplete)", errInvalidMeasurement, len(t.Points), out)
 	case runErr != nil:
 		return fmt.Errorf("%w: %v; the %d points measured before that are in %s", errInvalidMeasurement, runErr, len(t.Points), out)
 	case invalid > 0:

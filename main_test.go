@@ -15,6 +15,7 @@ import (
 	"path/filepath"
 	"slices"
 	"strings"
+	"sync"
 	"syscall"
 	"testing"
 	"time"
@@ -1190,4 +1191,71 @@ func TestDevicesText(t *testing.T) {
 	if !strings.HasPrefix(lines[len(lines)-1], "– : not reported") {
 		t.Errorf("no note on \"–\": %q", lines[len(lines)-1])
 	}
+}
+
+// TestSweepInterrupted: Ctrl+C (the command's context cancelled) during a
+// sweep keeps the points measured so far, marks the file incomplete, says
+// "interrupted" and exits 3.
+func TestSweepInterrupted(t *testing.T) {
+	t.Setenv("XDG_CONFIG_HOME", t.TempDir())
+	out := filepath.Join(t.TempDir(), "part.csv")
+	ctx, cancel := context.WithCancel(context.Background())
+	defer cancel()
+	var stdout bytes.Buffer
+	stderr := &signalWriter{match: "points at", seen: make(chan struct{})}
+	done := make(chan int, 1)
+	// 602 points: the interrupt, sent once progress shows, lands well
+	// before the end.
+	go func() { done <- run(ctx, []string{"sweep", "--sim", "--ppd", "200", "-o", out}, &stdout, stderr) }()
+	select {
+	case <-stderr.seen:
+	case <-time.After(30 * time.Second):
+		t.Fatal("no progress within 30 s")
+	}
+	cancel()
+	code := <-done
+	if code != exitInvalid {
+		t.Fatalf("exit %d, want %d; stderr:\n%s", code, exitInvalid, stderr)
+	}
+	if !strings.Contains(stderr.String(), "interrupted; the ") {
+		t.Errorf("stderr does not say the sweep was interrupted:\n%s", stderr)
+	}
+	tr, err := trace.LoadFile(out)
+	if err != nil {
+		t.Fatalf("the points measured before the interrupt were not kept: %v", err)
+	}
+	if v, _ := tr.MetaValue("complete"); !strings.HasPrefix(v, "no") {
+		t.Errorf("complete = %q, want it marked incomplete", v)
+	}
+	if n := len(tr.Points); n == 0 || n >= 602 {
+		t.Errorf("%d points kept; want part of the 602", n)
+	}
+	t.Logf("%d points kept", len(tr.Points))
+}
+
+// signalWriter collects what is written (safe for concurrent use) and
+// closes seen the first time the text holds match.
+type signalWriter struct {
+	mu    sync.Mutex
+	b     bytes.Buffer
+	match string
+	seen  chan struct{}
+	done  bool
+}
+
+func (w *signalWriter) Write(p []byte) (int, error) {
+	w.mu.Lock()
+	defer w.mu.Unlock()
+	n, err := w.b.Write(p)
+	if !w.done && strings.Contains(w.b.String(), w.match) {
+		w.done = true
+		close(w.seen)
+	}
+	return n, err
+}
+
+func (w *signalWriter) String() string {
+	w.mu.Lock()
+	defer w.mu.Unlock()
+	return w.b.String()
 }
