@@ -1765,11 +1765,19 @@ func screenStatus(st engine.Status, rate int) tui.Status {
 // coherence.
 func (l *liveSession) runAnySignal(ctx context.Context) {
 	rate := float64(l.stream.Rate())
-	w, err := spectral.NewWelch(8192, rate)
-	if err != nil {
-		l.send(tui.ErrMsg{Err: err})
-		return
+	// Two accumulators, restarted in turn every half window: the one
+	// shown always holds the last half window to whole window of signal,
+	// so the trace follows a component being turned.
+	w, younger := new(spectral.Welch), new(spectral.Welch)
+	for _, p := range []**spectral.Welch{&w, &younger} {
+		var err error
+		if *p, err = spectral.NewWelch(8192, rate); err != nil {
+			l.send(tui.ErrMsg{Err: err})
+			return
+		}
 	}
+	half := int64(anyWindow.Seconds() * rate / 2)
+	var fed int64
 	noise, err := stimulus.NewPinkNoise(7, 0, 0)
 	if err != nil {
 		l.send(tui.ErrMsg{Err: err})
@@ -1795,6 +1803,7 @@ func (l *liveSession) runAnySignal(ctx context.Context) {
 	for i := range dst {
 		dst[i] = make([]float64, 4096)
 	}
+	var lv inputLevels
 	next := time.Now().Add(500 * time.Millisecond)
 	for ctx.Err() == nil {
 		n, _, err := l.stream.Read(ctx, dst)
@@ -1804,14 +1813,72 @@ func (l *liveSession) runAnySignal(ctx context.Context) {
 			}
 			return
 		}
-		w.Add(dst[r.Reference-1][:n], dst[r.Response-1][:n])
-		if time.Now().After(next) && w.Segments() > 0 {
+		ref, resp := dst[r.Reference-1][:n], dst[r.Response-1][:n]
+		w.Add(ref, resp)
+		younger.Add(ref, resp)
+		lv.add(ref, resp)
+		if fed += int64(n); fed >= half {
+			fed = 0
+			w.Reset()
+			w, younger = younger, w
+		}
+		if time.Now().After(next) {
 			next = time.Now().Add(500 * time.Millisecond)
-			if t, err := w.Trace(l.s.Sweep.FromHz, l.s.Sweep.ToHz, 24); err == nil {
-				l.send(tui.TraceMsg{Trace: &t, Complete: true})
+			out := l.stream.Output()
+			st := lv.status(out.Level(), out.Muted(), l.stream.Stats())
+			l.send(tui.StatusMsg{Status: st})
+			lv = inputLevels{}
+			// Over a silent reference H1 is no measurement: nothing is
+			// drawn, and the Inputs pane says why.
+			if w.Segments() > 0 && (len(st.Inputs) == 0 || !st.Inputs[0].Dead) {
+				if t, err := w.Trace(l.s.Sweep.FromHz, l.s.Sweep.ToHz, 24); err == nil {
+					l.send(tui.TraceMsg{Trace: &t, Complete: true})
+				}
 			}
 		}
 	}
+}
+
+// inputLevels gathers the level of both inputs over one screen update of
+// the any-signal mode, which has no engine and so no monitors of its own.
+type inputLevels struct {
+	ss, peak [2]float64 // reference, response
+	n        int
+}
+
+func (lv *inputLevels) add(ref, resp []float64) {
+	for k, x := range [2][]float64{ref, resp} {
+		for _, v := range x {
+			lv.ss[k] += v * v
+			lv.peak[k] = max(lv.peak[k], math.Abs(v))
+		}
+	}
+	lv.n += len(ref)
+}
+
+// anyWindow is how much signal, at most, the any-signal mode's trace
+// averages; it shows the last half to whole of it.
+const anyWindow = 4 * time.Second
+
+// anyCrestDB is the crest factor of the pink noise the any-signal mode
+// plays, about 12 dB: its RMS lies that far below the output level.
+const anyCrestDB = 12
+
+// status reports the levels, clipping and silent inputs: an input whose
+// RMS lies DeadMarginDB below what the pink noise at levelDBFS gives
+// through a unity loop hears nothing of it (unless the output is muted).
+func (lv *inputLevels) status(levelDBFS float64, muted bool, st audio.Stats) tui.Status {
+	out := tui.Status{LatencyMs: math.NaN(), SNRdB: math.NaN(), DriftPPM: math.NaN(), Dropouts: st.Dropped + st.Underruns}
+	if lv.n == 0 {
+		return out
+	}
+	deadDB := levelDBFS - anyCrestDB - engine.DeadMarginDB
+	for k, name := range [2]string{"reference", "response"} {
+		rms := 20 * math.Log10(math.Sqrt(lv.ss[k]/float64(lv.n)))
+		out.Inputs = append(out.Inputs, tui.InputStatus{Name: name, RMSdBFS: rms, PeakdBFS: 20 * math.Log10(lv.peak[k]),
+			Clipping: lv.peak[k] >= engine.ClipLevel, Dead: !muted && rms < deadDB})
+	}
+	return out
 }
 
 // The tui.Controller methods. Each returns at once.
