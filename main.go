@@ -1785,8 +1785,9 @@ func (l *liveSession) runAnySignal(ctx context.Context) {
 	}
 	var wg sync.WaitGroup
 	wg.Add(1)
-	go func() { // the writer keeps the playout queue fed
+	go func() { // the writer keeps the playout queue fed, and ends it
 		defer wg.Done()
+		defer l.stream.Finish() // the writer's call (see audio.Stream)
 		buf := make([]float64, l.stream.Rate()/20)
 		for ctx.Err() == nil {
 			noise.Read(buf)
@@ -1796,7 +1797,6 @@ func (l *liveSession) runAnySignal(ctx context.Context) {
 		}
 	}()
 	defer wg.Wait()
-	defer l.stream.Finish()
 	in, _ := l.stream.Channels()
 	r := l.stream.Routing()
 	dst := make([][]float64, in)
