@@ -124,6 +124,16 @@ func TestToneMode(t *testing.T) {
 			t.Errorf("tone screen lacks %q:\n%s", want, screen)
 		}
 	}
+	// The reading came at fc, not at the requested tone (the measurement
+	// may move a tone clear of a mains hum line): the readout says where.
+	if !strings.Contains(screen, "measured at "+hz(fc)) {
+		t.Errorf("tone screen does not say the reading is at %s:\n%s", hz(fc), screen)
+	}
+	at := trace.NewPoint(ctl.tone, rcLowpass(ctl.tone))
+	send(m, ToneMsg{Point: at})
+	if strings.Contains(plain(m), "measured at") {
+		t.Errorf("a reading at the requested tone still says 'measured at':\n%s", plain(m))
+	}
 	// The history keeps at most ToneHistory readings.
 	m2 := testModel(newFake(), 80, 24, Options{ToneHistory: 5})
 	for range 12 {

@@ -474,6 +474,10 @@ func (m *Model) toneLines(w, h int) []string {
 		info = append(info, "THD "+fixed(last.THD, 3, false)+" %")
 	}
 	info = append(info, fmt.Sprintf("%d readings", len(m.tone)))
+	if f := last.Freq; math.Abs(f-m.cursor) > 1e-3*m.cursor {
+		// The measurement moved the tone (clear of a mains hum line).
+		info = append(info, "measured at "+hz(f))
+	}
 	lines = append(lines, " "+strings.Join(info, " · "))
 
 	room := h - len(lines)
