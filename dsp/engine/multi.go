@@ -192,11 +192,7 @@ func (m *multiMode) analyze() (bool, error) {
 // dead: response over nothing is no number, response over the stimulus
 // keeps what the response input heard (invalid, but kept).
 func (m *multiMode) stimulusAsRef(t *multitone.ToneResult, k int, a float64) {
-	t.Ref = cmplx.Rect(a, m.tones[k].Phase)
-	t.RefNoise = 0
-	t.H = t.Resp / t.Ref
-	sigma := math.Sqrt(t.RespNoise / abs2(t.Resp) / 2)
-	t.GainU, t.PhaseU = 20/math.Ln10*sigma, 180/math.Pi*sigma
+	t.SetReference(cmplx.Rect(a, m.tones[k].Phase), 0)
 }
 
 // analyzePeriod analyses period j of the loop captured at c0.

@@ -157,19 +157,9 @@ func (a *Analyzer) AnalyzeInto(dst *Frame, ref, resp []float64) error {
 			ny *= sc2 / float64(len(idx))
 		}
 		r.RefNoise, r.RespNoise = nx, ny
-		px, py := abs2(r.Ref), abs2(r.Resp)
-		r.SNR = 10 * math.Log10(min(px/nx, py/ny))
-
+		r.ratio()
 		if r.Ref == 0 {
 			missing++
-			nan := math.NaN()
-			r.H = complex(nan, nan)
-			r.GainU, r.PhaseU = nan, nan
-		} else {
-			r.H = r.Resp / r.Ref
-			sigma := math.Sqrt((nx/px + ny/py) / 2)
-			r.GainU = 20 / math.Ln10 * sigma
-			r.PhaseU = 180 / math.Pi * sigma
 		}
 
 		hp, nh := 0.0, 0
@@ -187,7 +177,7 @@ func (a *Analyzer) AnalyzeInto(dst *Frame, ref, resp []float64) error {
 				hp -= float64(nh) * ny
 			}
 			r.harmPower = max(hp, 0)
-			r.Distortion = 100 * math.Sqrt(r.harmPower/py)
+			r.Distortion = 100 * math.Sqrt(r.harmPower/abs2(r.Resp))
 		}
 	}
 	if missing > 0 {
@@ -195,6 +185,32 @@ func (a *Analyzer) AnalyzeInto(dst *Frame, ref, resp []float64) error {
 			ErrNoReference, missing, len(tones))
 	}
 	return nil
+}
+
+// SetReference replaces the tone's reference by ref with noise power
+// noise (see RefNoise) and derives H, SNR and the uncertainties anew — for
+// a caller that knows the reference better than the input did, e.g. the
+// stimulus itself when the reference input is dead.
+func (r *ToneResult) SetReference(ref complex128, noise float64) {
+	r.Ref, r.RefNoise = ref, noise
+	r.ratio()
+}
+
+// ratio derives SNR, H, GainU and PhaseU from Ref, Resp and their noise;
+// H and the uncertainties are NaN for a zero Ref.
+func (r *ToneResult) ratio() {
+	px, py := abs2(r.Ref), abs2(r.Resp)
+	r.SNR = 10 * math.Log10(min(px/r.RefNoise, py/r.RespNoise))
+	if r.Ref == 0 {
+		nan := math.NaN()
+		r.H = complex(nan, nan)
+		r.GainU, r.PhaseU = nan, nan
+		return
+	}
+	r.H = r.Resp / r.Ref
+	sigma := math.Sqrt((r.RefNoise/px + r.RespNoise/py) / 2)
+	r.GainU = 20 / math.Ln10 * sigma
+	r.PhaseU = 180 / math.Pi * sigma
 }
 
 func abs2(c complex128) float64 { return real(c)*real(c) + imag(c)*imag(c) }

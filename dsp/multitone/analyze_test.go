@@ -323,3 +323,25 @@ func TestAnalyzeIntoAllocs(t *testing.T) {
 		t.Errorf("AnalyzeInto + Add allocate %v times per period, want 0", n)
 	}
 }
+
+// TestSetReference: replacing a dead reference by the known stimulus
+// gives H = Resp/ref and uncertainties from the response's noise alone,
+// by the same first-order formula AnalyzeInto uses (see ToneResult).
+func TestSetReference(t *testing.T) {
+	r := ToneResult{Resp: complex(0.03, -0.04), RespNoise: 1e-8}
+	r.SetReference(0, 0)
+	if !cmplx.IsNaN(r.H) || !math.IsNaN(r.GainU) {
+		t.Errorf("zero reference: H %v, GainU %v; want NaN", r.H, r.GainU)
+	}
+	r.SetReference(complex(0.1, 0), 0)
+	if cmplx.Abs(r.H-complex(0.3, -0.4)) > 1e-15 {
+		t.Errorf("H = %v, want (0.3-0.4i)", r.H)
+	}
+	sigma := math.Sqrt(1e-8 / abs2(r.Resp) / 2) // |Resp|² = 0.0025
+	if math.Abs(r.GainU-20/math.Ln10*sigma) > 1e-15 || math.Abs(r.PhaseU-180/math.Pi*sigma) > 1e-12 {
+		t.Errorf("GainU %g, PhaseU %g; want %g, %g", r.GainU, r.PhaseU, 20/math.Ln10*sigma, 180/math.Pi*sigma)
+	}
+	if want := 10 * math.Log10(0.0025/1e-8); math.Abs(r.SNR-want) > 1e-9 {
+		t.Errorf("SNR %g dB, want the response's %g dB", r.SNR, want)
+	}
+}
