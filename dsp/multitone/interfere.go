@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 
+	"gonum.org/v1/gonum/floats"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -80,19 +81,17 @@ next:
 	for _, c := range in.cols {
 		in.spec = append(in.spec, a.fft.Coefficients(nil, c))
 	}
-	sm := mat.NewSymDense(m, nil)
-	for i := range m {
-		for j := i; j < m; j++ {
-			v := dot(in.cols[i], in.cols[j]) - in.toneProj(in.spec[i], in.spec[j])
-			sm.SetSym(i, j, v)
-		}
-	}
-	// Scaled by each column's energy, the diagonal of the inverse is
+	// S scaled by each column's norm: the diagonal of its inverse is
 	// 1/(the share of the column independent of all others).
+	norm := make([]float64, m)
+	for i, c := range in.cols {
+		norm[i] = math.Sqrt(floats.Dot(c, c))
+	}
 	scaled := mat.NewSymDense(m, nil)
 	for i := range m {
 		for j := i; j < m; j++ {
-			scaled.SetSym(i, j, sm.At(i, j)/math.Sqrt(dot(in.cols[i], in.cols[i])*dot(in.cols[j], in.cols[j])))
+			v := floats.Dot(in.cols[i], in.cols[j]) - in.toneProj(in.spec[i], in.spec[j])
+			scaled.SetSym(i, j, v/(norm[i]*norm[j]))
 		}
 	}
 	var chol mat.Cholesky
@@ -108,7 +107,7 @@ next:
 	in.sInv = mat.NewSymDense(m, nil)
 	for i := range m {
 		for j := i; j < m; j++ {
-			in.sInv.SetSym(i, j, inv.At(i, j)/math.Sqrt(dot(in.cols[i], in.cols[i])*dot(in.cols[j], in.cols[j])))
+			in.sInv.SetSym(i, j, inv.At(i, j)/(norm[i]*norm[j]))
 		}
 	}
 	in.r, in.et = make([]float64, m), make([]float64, m)
@@ -132,7 +131,7 @@ func (in *interferers) toneProj(u, v []complex128) float64 {
 // in place on X. It does not allocate.
 func (in *interferers) remove(X []complex128, x []float64) {
 	for j, c := range in.cols {
-		in.r[j] = dot(c, x) - in.toneProj(in.spec[j], X)
+		in.r[j] = floats.Dot(c, x) - in.toneProj(in.spec[j], X)
 	}
 	m := len(in.cols)
 	for i := range m {
@@ -148,12 +147,4 @@ func (in *interferers) remove(X []complex128, x []float64) {
 			X[b] -= e * sp[b]
 		}
 	}
-}
-
-func dot(a, b []float64) float64 {
-	var s float64
-	for i, v := range a {
-		s += v * b[i]
-	}
-	return s
 }
