@@ -1125,47 +1125,57 @@ func TestDevicesQuietStderr(t *testing.T) {
 // is muted (a mode change after the mute key) stops, since its latency
 // burst goes unheard; unmuting starts it again, and traces arrive.
 func TestLiveSessionResumesOnUnmute(t *testing.T) {
+	l := openLiveSession(t, tui.ModeStepped, "")
+	l.Mute(true)
+	if err := l.SetMode(tui.ModeMultitone); err != nil {
+		t.Fatal(err)
+	}
+	nextMsg(t, l, "the muted run to stop with an error", func(m tea.Msg) bool {
+		e, ok := m.(tui.ErrMsg)
+		return ok && strings.Contains(e.Err.Error(), "muted")
+	})
+	l.Mute(false)
+	nextMsg(t, l, "a trace after unmuting", func(m tea.Msg) bool {
+		tr, ok := m.(tui.TraceMsg)
+		return ok && len(tr.Trace.Points) > 0
+	})
+}
+
+// openLiveSession opens a live session in mode on the virtual bench
+// (unpaced, with the comma-separated faults) with default settings; the
+// test's cleanup stops it and closes the bench.
+func openLiveSession(t *testing.T, mode tui.Mode, faults string) *liveSession {
+	t.Helper()
 	t.Setenv("XDG_CONFIG_HOME", t.TempDir()) // defaults, whatever this machine has
 	s, err := config.Load("")
 	if err != nil {
 		t.Fatal(err)
 	}
-	st, b, err := openStream(s, simOptions{on: true})
+	st, b, err := openStream(s, simOptions{on: true, faults: faults})
 	if err != nil {
 		t.Fatal(err)
 	}
-	defer st.Close()
 	ctx, cancel := context.WithCancel(context.Background())
-	defer cancel()
-	l := newLiveSession(ctx, st, b, s, tui.ModeStepped, slog.New(slog.DiscardHandler))
-	defer l.stop()
-	l.Mute(true)
-	if err := l.SetMode(tui.ModeMultitone); err != nil {
-		t.Fatal(err)
-	}
-	wait := func(what string, ok func(tea.Msg) bool) {
-		t.Helper()
-		timeout := time.After(30 * time.Second)
-		for {
-			select {
-			case m := <-l.events:
-				if ok(m) {
-					return
-				}
-			case <-timeout:
-				t.Fatalf("timed out waiting for %s", what)
+	l := newLiveSession(ctx, st, b, s, mode, slog.New(slog.DiscardHandler))
+	t.Cleanup(func() { cancel(); l.stop(); st.Close() })
+	return l
+}
+
+// nextMsg returns the next message of l's screen events that ok accepts,
+// skipping the others, or fails the test after 30 s.
+func nextMsg(t *testing.T, l *liveSession, what string, ok func(tea.Msg) bool) tea.Msg {
+	t.Helper()
+	timeout := time.After(30 * time.Second)
+	for {
+		select {
+		case m := <-l.events:
+			if ok(m) {
+				return m
 			}
+		case <-timeout:
+			t.Fatalf("timed out waiting for %s", what)
 		}
 	}
-	wait("the muted run to stop with an error", func(m tea.Msg) bool {
-		e, ok := m.(tui.ErrMsg)
-		return ok && strings.Contains(e.Err.Error(), "muted")
-	})
-	l.Mute(false)
-	wait("a trace after unmuting", func(m tea.Msg) bool {
-		tr, ok := m.(tui.TraceMsg)
-		return ok && len(tr.Trace.Points) > 0
-	})
 }
 
 // TestDevicesText: the null backend's devices report neither channels nor
@@ -1269,47 +1279,23 @@ func (w *signalWriter) String() string {
 // dsp/mna) within 0.3 dB wherever the coherence exceeds 0.99. With a
 // dead reference the inputs pane says so and no trace is drawn.
 func TestLiveAnySignal(t *testing.T) {
-	t.Setenv("XDG_CONFIG_HOME", t.TempDir())
-	open := func(faults string) (*liveSession, func()) {
-		s, err := config.Load("")
-		if err != nil {
-			t.Fatal(err)
-		}
-		st, b, err := openStream(s, simOptions{on: true, faults: faults})
-		if err != nil {
-			t.Fatal(err)
-		}
-		ctx, cancel := context.WithCancel(context.Background())
-		l := newLiveSession(ctx, st, b, s, tui.ModeAny, slog.New(slog.DiscardHandler))
+	open := func(t *testing.T, faults string) *liveSession {
+		l := openLiveSession(t, tui.ModeAny, faults)
 		l.start()
-		return l, func() { cancel(); l.stop(); st.Close() }
-	}
-	next := func(l *liveSession, what string, ok func(tea.Msg) bool) tea.Msg {
-		t.Helper()
-		timeout := time.After(30 * time.Second)
-		for {
-			select {
-			case m := <-l.events:
-				if ok(m) {
-					return m
-				}
-			case <-timeout:
-				t.Fatalf("timed out waiting for %s", what)
-			}
-		}
+		return l
 	}
 	isTrace := func(m tea.Msg) bool { tr, ok := m.(tui.TraceMsg); return ok && len(tr.Trace.Points) > 0 }
+	isLevels := func(m tea.Msg) bool { s, ok := m.(tui.StatusMsg); return ok && len(s.Status.Inputs) == 2 }
 
 	t.Run("tuning", func(t *testing.T) {
-		l, done := open("")
-		defer done()
-		st := next(l, "input levels", func(m tea.Msg) bool { s, ok := m.(tui.StatusMsg); return ok && len(s.Status.Inputs) == 2 }).(tui.StatusMsg)
+		l := open(t, "")
+		st := nextMsg(t, l, "input levels", isLevels).(tui.StatusMsg)
 		for _, in := range st.Status.Inputs {
 			if in.Dead || in.Clipping || !(in.RMSdBFS > -60 && in.RMSdBFS < -20) {
 				t.Errorf("%s input: %+v", in.Name, in)
 			}
 		}
-		next(l, "a trace", isTrace)
+		nextMsg(t, l, "a trace", isTrace)
 		var c1 float64
 		for _, tn := range l.Tunables() {
 			if tn.Name == "C1" {
@@ -1319,7 +1305,7 @@ func TestLiveAnySignal(t *testing.T) {
 		if err := l.SetValue("C1", 2*c1); err != nil {
 			t.Fatal(err)
 		}
-		pred := next(l, "the new prediction", func(m tea.Msg) bool { _, ok := m.(tui.PredictionMsg); return ok }).(tui.PredictionMsg)
+		pred := nextMsg(t, l, "the new prediction", func(m tea.Msg) bool { _, ok := m.(tui.PredictionMsg); return ok }).(tui.PredictionMsg)
 		// The bench runs as fast as the session reads, so the trace must
 		// follow within two averaging windows of audio after the change,
 		// however much audio went before it.
@@ -1327,7 +1313,7 @@ func TestLiveAnySignal(t *testing.T) {
 		limit := from + int64(2*anyWindow.Seconds())*int64(l.stream.Rate())
 		deadline := time.Now().Add(20 * time.Second)
 		for {
-			tr := next(l, "a trace after the change", isTrace).(tui.TraceMsg)
+			tr := nextMsg(t, l, "a trace after the change", isTrace).(tui.TraceMsg)
 			worst, n := 0.0, 0
 			for _, p := range tr.Trace.Points {
 				if !(p.Coherence > 0.99) {
@@ -1350,9 +1336,8 @@ func TestLiveAnySignal(t *testing.T) {
 		}
 	})
 	t.Run("dead reference", func(t *testing.T) {
-		l, done := open("dead-ref")
-		defer done()
-		st := next(l, "input levels", func(m tea.Msg) bool { s, ok := m.(tui.StatusMsg); return ok && len(s.Status.Inputs) == 2 }).(tui.StatusMsg)
+		l := open(t, "dead-ref")
+		st := nextMsg(t, l, "input levels", isLevels).(tui.StatusMsg)
 		if !st.Status.Inputs[0].Dead || st.Status.Inputs[0].Name != "reference" || st.Status.Inputs[1].Dead {
 			t.Errorf("inputs %+v: want the reference dead and the response alive", st.Status.Inputs)
 		}
